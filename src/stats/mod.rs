@@ -1,0 +1,1 @@
+//! Pure numerical functions. No manifest, policy or report types live here.
