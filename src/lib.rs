@@ -1,4 +1,15 @@
 //! vetscore: checks whether a model's stated score is supported by its own evaluation evidence.
 #![cfg_attr(test, allow(clippy::unwrap_used))]
 
+pub mod app;
+pub mod cli;
+pub mod diag;
+pub mod estimate;
+pub mod evaluate;
+pub mod finding;
+pub mod input;
+pub mod manifest;
+pub mod policy;
+pub mod report;
+pub mod rules;
 pub mod stats;

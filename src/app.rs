@@ -1,0 +1,239 @@
+//! The application: load → validate → evaluate → report → write. The only module that touches
+//! the file system, the environment, the clock and the terminal.
+
+#![allow(clippy::print_stdout, clippy::print_stderr)]
+
+use std::io::{IsTerminal, Write};
+use std::path::{Path, PathBuf};
+
+use anyhow::{Context as _, Result, bail};
+
+use crate::cli::{CheckArgs, Cli, Command, SchemaFormat};
+use crate::diag::Diagnostic;
+use crate::finding::Verdict;
+use crate::manifest::{self, Model};
+use crate::policy::Policy;
+use crate::report::{self, markdown, terminal, view};
+use crate::{evaluate, rules};
+
+/// How a run ended; `main` turns it into the process exit code.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Exit {
+    /// Every claim is supported (warnings allowed), or a helper command succeeded.
+    Supported,
+    /// At least one error-severity finding.
+    NotSupported,
+    /// The inputs are invalid; every problem was listed.
+    InvalidInput,
+}
+
+impl Exit {
+    pub fn code(self) -> u8 {
+        match self {
+            Exit::Supported => 0,
+            Exit::NotSupported => 1,
+            Exit::InvalidInput => 2,
+        }
+    }
+}
+
+/// Exit code when vetscore itself could not finish.
+pub const INTERNAL_ERROR: u8 = 3;
+
+/// Runs a parsed command line.
+pub fn run(cli: Cli) -> Result<Exit> {
+    match cli.command {
+        Command::Check(args) => check(&args),
+        Command::Explain { rule } => explain(rule.as_deref()),
+        Command::Schema { format } => {
+            let schema = match format {
+                SchemaFormat::Manifest => manifest::schema(),
+                SchemaFormat::Policy => crate::policy::schema(),
+                SchemaFormat::Report => report::schema(),
+            };
+            println!("{}", serde_json::to_string_pretty(&schema)?);
+            Ok(Exit::Supported)
+        }
+    }
+}
+
+fn explain(rule: Option<&str>) -> Result<Exit> {
+    match rule {
+        None => {
+            for r in rules::RULES {
+                println!("{:<18} {}", r.id, r.name);
+            }
+            println!("\nRun `vetscore explain RULE` for what a rule checks and why.");
+            Ok(Exit::Supported)
+        }
+        Some(id) => match rules::rule(id) {
+            Some(r) => {
+                println!("{} ({})\n\n{}", r.name, r.id, r.explanation);
+                Ok(Exit::Supported)
+            }
+            None => {
+                let mut d = Diagnostic::file("(command line)", format!("no rule is named {id:?}"));
+                if let Some(c) = crate::diag::closest(id, rules::RULES.iter().map(|r| r.id)) {
+                    d = d.with_help(format!("did you mean `{c}`?"));
+                }
+                eprintln!("error: {d}");
+                Ok(Exit::InvalidInput)
+            }
+        },
+    }
+}
+
+fn check(args: &CheckArgs) -> Result<Exit> {
+    let mut problems = Vec::new();
+    let today = match &args.today {
+        Some(text) => match text.parse::<jiff::civil::Date>() {
+            Ok(d) => Some(d),
+            Err(e) => {
+                problems.push(Diagnostic::file(
+                    "--today",
+                    format!("expected YYYY-MM-DD, found {text:?}: {e}"),
+                ));
+                None
+            }
+        },
+        None => Some(
+            jiff::tz::TimeZone::UTC
+                .to_datetime(jiff::Timestamp::now())
+                .date(),
+        ),
+    };
+    let policy = match &args.policy {
+        Some(path) => Policy::load(path).map_err(|d| problems.extend(d)).ok(),
+        None => Some(Policy::defaults()),
+    };
+    let mut models: Vec<Model> = Vec::new();
+    for path in expand(&args.manifests, &mut problems) {
+        match manifest::load(&path) {
+            Ok(found) => models.extend(found),
+            Err(d) => problems.extend(d),
+        }
+    }
+    problems.extend(duplicate_names(&models));
+    let (Some(policy), Some(today), true) = (policy, today, problems.is_empty()) else {
+        for p in &problems {
+            eprintln!("error: {p}");
+        }
+        eprintln!(
+            "vetscore: {} input problem{} found; nothing was checked",
+            problems.len(),
+            if problems.len() == 1 { "" } else { "s" }
+        );
+        return Ok(Exit::InvalidInput);
+    };
+
+    let assessment = evaluate::evaluate(models, &policy, today);
+    let view = view::build(&assessment, &policy);
+    let markdown_text = markdown::render(&view, args.templates.as_deref())?;
+    let markdown_to_stdout = args.markdown.as_deref() == Some(Path::new("-"));
+    if let Some(path) = &args.markdown {
+        write_output(path, &markdown_text)?;
+    }
+    if let Some(path) = &args.json {
+        write_output(path, &report::json(&view)?)?;
+    }
+    if let Some(summary) = std::env::var_os("GITHUB_STEP_SUMMARY").filter(|s| !s.is_empty()) {
+        append(Path::new(&summary), &markdown_text)
+            .context("appending the report to GITHUB_STEP_SUMMARY")?;
+    }
+    let no_color = std::env::var_os("NO_COLOR").is_some_and(|v| !v.is_empty());
+    if markdown_to_stdout || args.json.as_deref() == Some(Path::new("-")) {
+        let color = std::io::stderr().is_terminal() && !no_color;
+        eprint!("{}", terminal::render(&view, color));
+    } else {
+        let color = std::io::stdout().is_terminal() && !no_color;
+        print!("{}", terminal::render(&view, color));
+    }
+    Ok(match assessment.verdict {
+        Verdict::NotSupported => Exit::NotSupported,
+        Verdict::Supported | Verdict::SupportedWithWarnings => Exit::Supported,
+    })
+}
+
+/// Expands glob patterns; a pattern that matches nothing is an input problem.
+fn expand(patterns: &[String], problems: &mut Vec<Diagnostic>) -> Vec<PathBuf> {
+    let mut paths = Vec::new();
+    for pattern in patterns {
+        if !pattern.contains(['*', '?', '[']) {
+            paths.push(PathBuf::from(pattern));
+            continue;
+        }
+        match glob::glob(pattern) {
+            Ok(entries) => {
+                let before = paths.len();
+                for entry in entries {
+                    match entry {
+                        Ok(path) => paths.push(path),
+                        Err(e) => problems.push(Diagnostic::file(
+                            e.path().display().to_string(),
+                            format!("cannot read: {}", e.error()),
+                        )),
+                    }
+                }
+                if paths.len() == before {
+                    problems.push(Diagnostic::file(pattern, "pattern matched no file"));
+                }
+            }
+            Err(e) => problems.push(Diagnostic::file(
+                pattern,
+                format!("invalid glob pattern: {}", e.msg),
+            )),
+        }
+    }
+    paths.sort();
+    paths.dedup();
+    paths
+}
+
+/// Model names identify findings and holdout use, so they must be unique across the check.
+fn duplicate_names(models: &[Model]) -> Vec<Diagnostic> {
+    let mut out = Vec::new();
+    for (i, m) in models.iter().enumerate() {
+        if let Some(first) = models[..i].iter().find(|o| o.name == m.name) {
+            out.push(Diagnostic {
+                file: m.origin.file.clone(),
+                line: m.origin.line,
+                column: None,
+                path: Some("name".to_owned()),
+                message: format!(
+                    "model name {:?} is already used at {}{}",
+                    m.name,
+                    first.origin.file,
+                    first
+                        .origin
+                        .line
+                        .map(|l| format!(":{l}"))
+                        .unwrap_or_default()
+                ),
+                help: Some("give every model in the check a unique name".to_owned()),
+            });
+        }
+    }
+    out
+}
+
+fn write_output(path: &Path, text: &str) -> Result<()> {
+    if path == Path::new("-") {
+        let mut stdout = std::io::stdout().lock();
+        stdout.write_all(text.as_bytes())?;
+        stdout.flush()?;
+        return Ok(());
+    }
+    if path.is_dir() {
+        bail!("cannot write {}: it is a directory", path.display());
+    }
+    std::fs::write(path, text).with_context(|| format!("cannot write {}", path.display()))
+}
+
+fn append(path: &Path, text: &str) -> Result<()> {
+    let mut file = std::fs::OpenOptions::new()
+        .create(true)
+        .append(true)
+        .open(path)?;
+    file.write_all(text.as_bytes())?;
+    Ok(())
+}

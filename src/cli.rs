@@ -1,0 +1,71 @@
+//! The command line. Doc comments here are the help text; there is no logic in this module.
+
+use std::path::PathBuf;
+
+use clap::{Parser, Subcommand, ValueEnum};
+
+/// Checks whether the scores a training job claims are supported by its own evaluation
+/// evidence, and fails the build when they are not.
+///
+/// Exit codes: 0 every claim supported (warnings allowed); 1 at least one claim not supported;
+/// 2 invalid input (every problem is listed); 3 vetscore could not finish (for example a report
+/// could not be written); 101 vetscore crashed (a bug; please report it).
+#[derive(Debug, Parser)]
+#[command(name = "vetscore", version, max_term_width = 100)]
+pub struct Cli {
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Check results manifests against a policy and write the reports.
+    Check(CheckArgs),
+    /// Explain a rule: what it checks, how, and the published source of its method.
+    Explain {
+        /// Rule id, e.g. `holdout_budget`; without it, list every rule.
+        rule: Option<String>,
+    },
+    /// Print the JSON Schema of an input or output format.
+    Schema {
+        #[arg(value_enum)]
+        format: SchemaFormat,
+    },
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum SchemaFormat {
+    /// The results manifest a training job writes.
+    Manifest,
+    /// The policy file.
+    Policy,
+    /// The JSON report vetscore writes.
+    Report,
+}
+
+#[derive(Debug, clap::Args)]
+pub struct CheckArgs {
+    /// Results manifests (JSON or YAML): paths or glob patterns such as `runs/*.yaml`.
+    #[arg(required = true, value_name = "MANIFEST")]
+    pub manifests: Vec<String>,
+
+    /// Policy file (YAML). Without it the documented defaults apply.
+    #[arg(short, long, value_name = "FILE")]
+    pub policy: Option<PathBuf>,
+
+    /// Write the Markdown report to FILE (`-` for standard output).
+    #[arg(long, value_name = "FILE")]
+    pub markdown: Option<PathBuf>,
+
+    /// Write the JSON report to FILE (`-` for standard output).
+    #[arg(long, value_name = "FILE")]
+    pub json: Option<PathBuf>,
+
+    /// Render the Markdown report with the templates in DIR instead of the built-in ones.
+    #[arg(long, value_name = "DIR")]
+    pub templates: Option<PathBuf>,
+
+    /// Judge waiver expiry against this date (YYYY-MM-DD) instead of today's date in UTC.
+    #[arg(long, value_name = "DATE")]
+    pub today: Option<String>,
+}

@@ -1,0 +1,132 @@
+//! The CV and test estimates of a model, with intervals, shared by the rules and the report.
+//!
+//! Proportion metrics (accuracy) use a binomial interval on counts of correct rows: for CV the
+//! pooled count over the folds, with every training row counted once however many times the
+//! split was repeated; for the test split the count of its last evaluation. Other metrics get a
+//! Student-t interval over the fold scores for CV, and no test interval until per-example
+//! predictions are read (the report says so instead of inventing one).
+
+use schemars::JsonSchema;
+use serde::Serialize;
+
+use crate::manifest::{CrossValidation, Evaluation, Model};
+use crate::stats::{self, Interval, ProportionMethod};
+
+/// How an estimate's interval was obtained.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, JsonSchema)]
+#[serde(tag = "kind", rename_all = "snake_case")]
+pub enum IntervalBasis {
+    /// A binomial interval on a count of correct rows.
+    Proportion { method: ProportionMethod },
+    /// A Student-t interval over per-fold scores.
+    FoldMean { folds: usize },
+    /// No interval: the evidence needed is not in the manifest.
+    Unavailable,
+}
+
+/// A point estimate with its interval and the rows behind it.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Estimate {
+    pub value: f64,
+    pub interval: Option<Interval>,
+    pub basis: IntervalBasis,
+    /// Distinct rows the estimate rests on.
+    pub rows: u64,
+    /// Correct rows, for proportion metrics.
+    pub correct: Option<u64>,
+}
+
+/// Settings shared by every estimate.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct IntervalSettings {
+    pub confidence: f64,
+    pub method: ProportionMethod,
+}
+
+/// The CV estimate of the selected configuration, if the manifest has a search.
+pub fn cv_estimate(model: &Model, settings: IntervalSettings) -> Option<Estimate> {
+    let cv = &model.search.as_ref()?.cv;
+    Some(if model.metric.is_proportion() {
+        pooled_proportion(cv, settings)
+    } else {
+        fold_mean(cv, settings.confidence)
+    })
+}
+
+fn pooled_proportion(cv: &CrossValidation, settings: IntervalSettings) -> Estimate {
+    let correct: u64 = cv.folds.iter().filter_map(|f| f.correct).sum();
+    let validated: u64 = cv.folds.iter().map(|f| f.rows).sum();
+    let value = correct as f64 / validated as f64;
+    // With repeats, each row is validated `repeats` times; the interval counts it once.
+    let rows = cv.distinct_rows();
+    let count = (value * rows as f64).round() as u64;
+    Estimate {
+        value,
+        interval: stats::proportion_interval(count, rows, settings.confidence, settings.method)
+            .ok(),
+        basis: IntervalBasis::Proportion {
+            method: settings.method,
+        },
+        rows,
+        correct: Some(count),
+    }
+}
+
+fn fold_mean(cv: &CrossValidation, confidence: f64) -> Estimate {
+    let scores: Vec<f64> = cv.folds.iter().map(|f| f.score).collect();
+    let rows = cv.distinct_rows();
+    match stats::mean_t_interval(&scores, confidence) {
+        Ok(m) => Estimate {
+            value: m.mean,
+            interval: Some(m.interval),
+            basis: IntervalBasis::FoldMean {
+                folds: scores.len(),
+            },
+            rows,
+            correct: None,
+        },
+        Err(_) => Estimate {
+            value: scores.iter().sum::<f64>() / scores.len().max(1) as f64,
+            interval: None,
+            basis: IntervalBasis::Unavailable,
+            rows,
+            correct: None,
+        },
+    }
+}
+
+/// The test estimate from the last holdout evaluation, if there is one.
+pub fn test_estimate(model: &Model, settings: IntervalSettings) -> Option<Estimate> {
+    model
+        .test_evaluation()
+        .map(|e| evaluation_estimate(e, settings))
+}
+
+/// An estimate from one holdout evaluation at the given settings.
+pub fn evaluation_estimate(evaluation: &Evaluation, settings: IntervalSettings) -> Estimate {
+    match evaluation.correct {
+        // The count is exact; the reported score may be rounded.
+        Some(correct) => Estimate {
+            value: correct as f64 / evaluation.rows as f64,
+            interval: stats::proportion_interval(
+                correct,
+                evaluation.rows,
+                settings.confidence,
+                settings.method,
+            )
+            .ok(),
+            basis: IntervalBasis::Proportion {
+                method: settings.method,
+            },
+            rows: evaluation.rows,
+            correct: Some(correct),
+        },
+        None => Estimate {
+            value: evaluation.score,
+            interval: None,
+            basis: IntervalBasis::Unavailable,
+            rows: evaluation.rows,
+            correct: None,
+        },
+    }
+}

@@ -1,0 +1,152 @@
+//! The engine: every rule on every model, with the policy's settings, waivers and handling of
+//! inconclusive rules applied. Pure: no I/O, no clock (the date comes in as an argument).
+
+use std::collections::BTreeMap;
+
+use crate::estimate::{self, Estimate, IntervalSettings};
+use crate::finding::{Finding, PolicySource, Severity, Status, Verdict, WaiverNote, verdict_of};
+use crate::manifest::Model;
+use crate::policy::{Inconclusive, Policy};
+use crate::rules::{Context, HoldoutUse, RULES, Subject, WaiverView};
+
+/// The outcome of a whole check.
+#[derive(Debug, Clone)]
+pub struct Assessment {
+    pub models: Vec<ModelAssessment>,
+    pub verdict: Verdict,
+    /// Remarks about the policy, such as entries that matched no model.
+    pub notes: Vec<String>,
+}
+
+/// Everything the check concluded about one model.
+#[derive(Debug, Clone)]
+pub struct ModelAssessment {
+    pub model: Model,
+    pub cv: Option<Estimate>,
+    pub test: Option<Estimate>,
+    pub findings: Vec<Finding>,
+    pub verdict: Verdict,
+}
+
+/// Runs every rule on every model.
+pub fn evaluate(models: Vec<Model>, policy: &Policy, today: jiff::civil::Date) -> Assessment {
+    let mut holdout_uses: BTreeMap<String, Vec<HoldoutUse>> = BTreeMap::new();
+    for model in &models {
+        for _ in &model.holdout {
+            holdout_uses
+                .entry(model.data.test_fingerprint.clone())
+                .or_default()
+                .push(HoldoutUse {
+                    model: model.name.clone(),
+                    file: model.origin.file.clone(),
+                });
+        }
+    }
+    let names: Vec<&str> = models.iter().map(|m| m.name.as_str()).collect();
+    let notes = policy.unmatched_entries(&names);
+    let interval = IntervalSettings {
+        confidence: policy.confidence,
+        method: policy.interval_method,
+    };
+    let mut context = Context {
+        confidence: policy.confidence,
+        interval_method: policy.interval_method,
+        holdout_uses,
+        today,
+        waivers: Vec::new(),
+    };
+    let assessed: Vec<ModelAssessment> = models
+        .into_iter()
+        .map(|model| {
+            context.waivers = policy
+                .waivers_for(&model.name)
+                .map(|w| WaiverView {
+                    rule: w.rule.clone(),
+                    reason: w.reason.clone(),
+                    expires: w.expires,
+                    path: w.path.clone(),
+                })
+                .collect();
+            assess(model, policy, &context, interval)
+        })
+        .collect();
+    Assessment {
+        verdict: verdict_of(assessed.iter().flat_map(|m| &m.findings)),
+        models: assessed,
+        notes,
+    }
+}
+
+fn assess(
+    model: Model,
+    policy: &Policy,
+    context: &Context,
+    interval: IntervalSettings,
+) -> ModelAssessment {
+    let (settings, sources) = policy.settings_for(&model.name);
+    let subject = Subject {
+        model: &model,
+        cv: estimate::cv_estimate(&model, interval),
+        test: estimate::test_estimate(&model, interval),
+    };
+    let findings: Vec<Finding> = RULES
+        .iter()
+        .map(|rule| {
+            let mut severity = settings.severity(rule.id);
+            let policy_source = sources.get(rule.id).cloned().unwrap_or(PolicySource {
+                path: "defaults".to_owned(),
+                line: None,
+            });
+            let outcome = if severity == Severity::Off {
+                crate::rules::Outcome::new(
+                    Status::Skipped,
+                    "The policy turns this rule off.",
+                    Vec::new(),
+                )
+            } else {
+                (rule.check)(&subject, context, &settings)
+            };
+            if outcome.status == Status::Inconclusive && policy.inconclusive == Inconclusive::Warn {
+                severity = severity.min(Severity::Warn);
+            }
+            let mut finding = Finding {
+                rule: rule.id,
+                model: model.name.clone(),
+                severity,
+                status: outcome.status,
+                sentence: outcome.sentence,
+                evidence: outcome.evidence,
+                policy: policy_source,
+                waiver: None,
+            };
+            apply_waiver(&mut finding, context);
+            finding
+        })
+        .collect();
+    ModelAssessment {
+        cv: subject.cv,
+        test: subject.test,
+        verdict: verdict_of(&findings),
+        findings,
+        model,
+    }
+}
+
+/// A current waiver turns an adverse finding into a waived one; an expired waiver does nothing
+/// here (the waiver-expiry rule reports it).
+fn apply_waiver(finding: &mut Finding, context: &Context) {
+    if !matches!(finding.status, Status::Fail | Status::Inconclusive) {
+        return;
+    }
+    if let Some(w) = context
+        .waivers
+        .iter()
+        .find(|w| w.rule == finding.rule && w.expires >= context.today)
+    {
+        finding.status = Status::Waived;
+        finding.waiver = Some(WaiverNote {
+            reason: w.reason.clone(),
+            expires: w.expires.to_string(),
+        });
+    }
+}

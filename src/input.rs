@@ -1,0 +1,193 @@
+//! Reading an input file (manifest or policy) into its raw serde type.
+//!
+//! JSON and YAML share one path: JSON syntax is checked strictly by serde_json first (so YAML-only
+//! forms such as comments or `.nan` are not accepted in a `.json` file), then both formats are
+//! deserialized by serde-saphyr, whose node locations give every later diagnostic a line and
+//! column. serde-saphyr also rejects duplicate keys and enforces alias, depth and size budgets.
+
+use std::path::Path;
+
+use serde::de::DeserializeOwned;
+
+use crate::diag::{Diagnostic, Place};
+
+/// Largest input file read, in bytes. Larger files are refused before parsing.
+pub const MAX_INPUT_BYTES: u64 = 64 * 1024 * 1024;
+
+/// The syntax of an input file.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Syntax {
+    Json,
+    Yaml,
+}
+
+impl Syntax {
+    /// From the extension; otherwise from the first non-blank byte (`{` means JSON).
+    pub fn detect(path: &Path, text: &str) -> Syntax {
+        match path.extension().and_then(|e| e.to_str()) {
+            Some("json") => Syntax::Json,
+            Some("yaml" | "yml") => Syntax::Yaml,
+            _ if text.trim_start().starts_with('{') => Syntax::Json,
+            _ => Syntax::Yaml,
+        }
+    }
+}
+
+/// Reads a file as UTF-8 text, refusing directories, oversized files and invalid UTF-8.
+/// A leading byte-order mark is dropped.
+pub fn read_text(path: &Path) -> Result<String, Diagnostic> {
+    let shown = path.display().to_string();
+    let metadata = std::fs::metadata(path)
+        .map_err(|e| Diagnostic::file(&shown, format!("cannot read file: {}", io_reason(&e))))?;
+    if metadata.is_dir() {
+        return Err(Diagnostic::file(
+            &shown,
+            "expected a file, found a directory",
+        ));
+    }
+    if metadata.len() > MAX_INPUT_BYTES {
+        return Err(Diagnostic::file(
+            &shown,
+            format!(
+                "file is {} bytes; the limit is {MAX_INPUT_BYTES} bytes",
+                metadata.len()
+            ),
+        ));
+    }
+    let bytes = std::fs::read(path)
+        .map_err(|e| Diagnostic::file(&shown, format!("cannot read file: {}", io_reason(&e))))?;
+    let text = String::from_utf8(bytes).map_err(|e| {
+        let offset = e.utf8_error().valid_up_to();
+        let before = &e.as_bytes()[..offset];
+        let line = before.iter().filter(|&&b| b == b'\n').count() as u64 + 1;
+        let column = (offset
+            - before
+                .iter()
+                .rposition(|&b| b == b'\n')
+                .map_or(0, |p| p + 1)) as u64
+            + 1;
+        Diagnostic::at(
+            &shown,
+            Place::new(line, column),
+            "(file)",
+            "file is not valid UTF-8",
+        )
+        .with_help("save the file as UTF-8")
+    })?;
+    Ok(match text.strip_prefix('\u{feff}') {
+        Some(rest) => rest.to_owned(),
+        None => text,
+    })
+}
+
+fn io_reason(error: &std::io::Error) -> String {
+    match error.kind() {
+        std::io::ErrorKind::NotFound => "no such file".to_owned(),
+        std::io::ErrorKind::PermissionDenied => "permission denied".to_owned(),
+        _ => error.to_string(),
+    }
+}
+
+/// Parses `text` into `T`, reporting syntax and type errors with their position.
+pub fn parse<T: DeserializeOwned>(file: &str, text: &str, syntax: Syntax) -> Result<T, Diagnostic> {
+    if syntax == Syntax::Json
+        && let Err(e) = serde_json::from_str::<serde::de::IgnoredAny>(text)
+    {
+        let message = strip_position(&e.to_string(), " at line ");
+        let place = Place {
+            line: Some(e.line() as u64),
+            // serde_json reports column 0 at the very start of a line (end of input).
+            column: (e.column() > 0).then_some(e.column() as u64),
+        };
+        return Err(Diagnostic::at(
+            file,
+            place,
+            "(json)",
+            format!("invalid JSON: {message}"),
+        ));
+    }
+    let options = serde_saphyr::options! { with_snippet: false };
+    serde_saphyr::from_str_with_options::<T>(text, options).map_err(|e| {
+        let place = e.location().map(|l| Place::of(&l)).unwrap_or_default();
+        let mut message = strip_position(&e.to_string(), " at line ");
+        // serde-saphyr suggests one of its own options here; that advice is for programmers.
+        if let Some(i) = message.find(", set DuplicateKeyPolicy") {
+            message.truncate(i);
+        }
+        // Type errors say what was expected; add what was found.
+        if message.starts_with("invalid ")
+            && let Some(token) = token_at(text, place)
+        {
+            message.push_str(&format!(", found `{token}`"));
+        }
+        let diagnostic = Diagnostic {
+            file: file.to_owned(),
+            line: place.line,
+            column: place.column,
+            path: None,
+            message,
+            help: None,
+        };
+        match unknown_field_hint(&diagnostic.message) {
+            Some(hint) => diagnostic.with_help(hint),
+            None => diagnostic,
+        }
+    })
+}
+
+/// The scalar that starts at `place` in `text`, for messages.
+fn token_at(text: &str, place: Place) -> Option<String> {
+    let line = text
+        .lines()
+        .nth(usize::try_from(place.line?).ok()?.checked_sub(1)?)?;
+    let start = usize::try_from(place.column?).ok()?.checked_sub(1)?;
+    let token: String = line
+        .chars()
+        .skip(start)
+        .take_while(|c| !matches!(c, ',' | '}' | ']' | '#'))
+        .take(40)
+        .collect();
+    let token = token.trim();
+    (!token.is_empty()).then(|| token.to_owned())
+}
+
+/// Drops the parser's own " at line N, column M" suffix; the diagnostic carries the position.
+fn strip_position(message: &str, marker: &str) -> String {
+    match message.find(marker) {
+        Some(i) => message[..i].to_owned(),
+        None => message.to_owned(),
+    }
+}
+
+/// For serde's "unknown field `x`, expected one of `a`, `b`" (or "unknown variant ..."),
+/// suggests the closest expected name.
+fn unknown_field_hint(message: &str) -> Option<String> {
+    let rest = message
+        .strip_prefix("unknown field `")
+        .or_else(|| message.strip_prefix("unknown variant `"))?;
+    let (word, rest) = rest.split_once('`')?;
+    let expected = rest.split_once("expected ")?.1;
+    let expected = expected.replace(" or ", ",");
+    let candidates: Vec<&str> = expected
+        .trim_start_matches("one of ")
+        .split(',')
+        .map(|c| c.trim().trim_matches('`'))
+        .filter(|c| !c.is_empty())
+        .collect();
+    crate::diag::closest(word, candidates.iter().copied()).map(|c| format!("did you mean `{c}`?"))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn unknown_field_gets_a_suggestion() {
+        let hint = unknown_field_hint(
+            "unknown field `max_evaluation`, expected one of severity, max_evaluations",
+        );
+        assert_eq!(hint.as_deref(), Some("did you mean `max_evaluations`?"));
+        let hint = unknown_field_hint("unknown field `zzz`, expected `severity` or `min_rows`");
+        assert_eq!(hint, None);
+    }
+}

@@ -1,0 +1,226 @@
+//! The results manifest: its vocabulary, the validated [`Model`] the rules read, and loading.
+//!
+//! Loading parses each file into the raw types of [`raw`], then [`validate`] turns them into
+//! [`Model`]s, collecting every problem (with file, key path and line) before giving up. Nothing
+//! here evaluates a rule.
+
+pub mod raw;
+mod validate;
+
+use std::collections::BTreeMap;
+use std::path::Path;
+
+use schemars::JsonSchema;
+use serde::{Deserialize, Serialize};
+
+use crate::diag::Diagnostic;
+use crate::input::{self, Syntax};
+
+pub use validate::validate;
+
+/// The manifest format version this build reads.
+pub const FORMAT_VERSION: u32 = 1;
+
+/// Kind of prediction task.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, JsonSchema)]
+#[serde(rename_all = "snake_case")]
+pub enum Task {
+    Binary,
+    Multiclass,
+    Regression,
+}
+
+/// The primary metric of a model.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, JsonSchema)]
+#[serde(rename_all = "snake_case")]
+pub enum Metric {
+    Accuracy,
+    BalancedAccuracy,
+    F1,
+    RocAuc,
+    LogLoss,
+    Rmse,
+    Mae,
+    R2,
+}
+
+impl Metric {
+    /// Whether a larger value is better.
+    pub fn higher_is_better(self) -> bool {
+        !matches!(self, Metric::LogLoss | Metric::Rmse | Metric::Mae)
+    }
+
+    /// Whether the metric is a proportion of rows (so binomial intervals apply to it).
+    pub fn is_proportion(self) -> bool {
+        matches!(self, Metric::Accuracy)
+    }
+
+    /// The closed range of valid values.
+    pub fn range(self) -> (f64, f64) {
+        match self {
+            Metric::Accuracy | Metric::BalancedAccuracy | Metric::F1 | Metric::RocAuc => (0.0, 1.0),
+            Metric::LogLoss | Metric::Rmse | Metric::Mae => (0.0, f64::INFINITY),
+            Metric::R2 => (f64::NEG_INFINITY, 1.0),
+        }
+    }
+
+    /// Whether the metric applies to the task.
+    pub fn fits(self, task: Task) -> bool {
+        match self {
+            Metric::Rmse | Metric::Mae | Metric::R2 => task == Task::Regression,
+            _ => task != Task::Regression,
+        }
+    }
+
+    /// The snake_case name used in files.
+    pub fn name(self) -> &'static str {
+        match self {
+            Metric::Accuracy => "accuracy",
+            Metric::BalancedAccuracy => "balanced_accuracy",
+            Metric::F1 => "f1",
+            Metric::RocAuc => "roc_auc",
+            Metric::LogLoss => "log_loss",
+            Metric::Rmse => "rmse",
+            Metric::Mae => "mae",
+            Metric::R2 => "r2",
+        }
+    }
+}
+
+/// How hyperparameter configurations were chosen.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, JsonSchema)]
+#[serde(rename_all = "snake_case")]
+pub enum SearchMethod {
+    Grid,
+    Random,
+    Sequential,
+    Manual,
+}
+
+/// How training rows were split for cross-validation.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, JsonSchema)]
+#[serde(rename_all = "snake_case")]
+pub enum CvScheme {
+    KFold,
+    StratifiedKFold,
+    GroupKFold,
+    RepeatedKFold,
+    TimeOrdered,
+    Nested,
+}
+
+/// What evidence a claim rests on.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, JsonSchema)]
+#[serde(rename_all = "snake_case")]
+pub enum Basis {
+    /// The cross-validation estimate of the selected configuration.
+    Cv,
+    /// The held-out test split.
+    Test,
+}
+
+/// Where a model came from, for messages.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize)]
+pub struct Origin {
+    pub file: String,
+    pub line: Option<u64>,
+}
+
+/// A validated model: every number finite and in range, every count consistent.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Model {
+    pub name: String,
+    pub origin: Origin,
+    pub task: Task,
+    pub metric: Metric,
+    pub run_id: Option<String>,
+    pub commit: Option<String>,
+    pub trained_at: Option<jiff::Timestamp>,
+    pub seed: Option<u64>,
+    pub data: Data,
+    pub search: Option<Search>,
+    pub holdout: Vec<Evaluation>,
+    pub claim: Claim,
+}
+
+impl Model {
+    /// The reported test score: the last scoring of the test split.
+    pub fn test_evaluation(&self) -> Option<&Evaluation> {
+        self.holdout.last()
+    }
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct Data {
+    pub train_rows: u64,
+    pub test_rows: u64,
+    pub test_fingerprint: String,
+    pub class_counts: Option<ClassCounts>,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct ClassCounts {
+    pub train: BTreeMap<String, u64>,
+    pub test: BTreeMap<String, u64>,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct Search {
+    pub method: SearchMethod,
+    pub configurations: Option<u64>,
+    pub cv: CrossValidation,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct CrossValidation {
+    pub scheme: CvScheme,
+    pub repeats: u32,
+    pub folds: Vec<Fold>,
+}
+
+impl CrossValidation {
+    /// Distinct validation rows: every training row is validated once per repeat.
+    pub fn distinct_rows(&self) -> u64 {
+        self.folds.iter().map(|f| f.rows).sum::<u64>() / u64::from(self.repeats.max(1))
+    }
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct Fold {
+    pub rows: u64,
+    pub score: f64,
+    /// Rows predicted correctly, for proportion metrics.
+    pub correct: Option<u64>,
+    pub class_rows: Option<BTreeMap<String, u64>>,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct Evaluation {
+    pub time: Option<jiff::Timestamp>,
+    pub score: f64,
+    pub rows: u64,
+    /// Rows predicted correctly, for proportion metrics.
+    pub correct: Option<u64>,
+    pub note: Option<String>,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct Claim {
+    pub value: f64,
+    pub basis: Basis,
+    pub text: Option<String>,
+}
+
+/// Reads and validates one manifest file.
+pub fn load(path: &Path) -> Result<Vec<Model>, Vec<Diagnostic>> {
+    let file = path.display().to_string();
+    let text = input::read_text(path).map_err(|d| vec![d])?;
+    let raw: raw::RawManifest =
+        input::parse(&file, &text, Syntax::detect(path, &text)).map_err(|d| vec![d])?;
+    validate(&file, raw)
+}
+
+/// The JSON Schema of the manifest format.
+pub fn schema() -> schemars::Schema {
+    schemars::schema_for!(raw::RawManifest)
+}

@@ -1,0 +1,182 @@
+//! The results manifest exactly as written by a training job (format version 1).
+//!
+//! These types mirror the file one to one; nothing here checks meaning. Every struct denies
+//! unknown keys, because a misspelled key that silently vanished would drop evidence. Free-form
+//! information goes in `metadata`. The JSON Schema printed by `vetscore schema manifest` is
+//! derived from these types, so the schema and the parser cannot drift apart.
+
+use std::collections::BTreeMap;
+
+use schemars::JsonSchema;
+use serde::Deserialize;
+use serde_saphyr::Spanned;
+
+use super::{Basis, CvScheme, Metric, SearchMethod, Task};
+
+/// A results manifest: one training run, one or more models.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+#[schemars(title = "vetscore results manifest", rename = "Manifest")]
+pub struct RawManifest {
+    /// Manifest format version; this build reads version 1.
+    pub format_version: u32,
+    /// The models this run trained and makes claims about.
+    #[schemars(with = "Vec<RawModel>")]
+    pub models: Vec<Spanned<RawModel>>,
+    /// Free-form information about the run; not read by any rule.
+    #[serde(default)]
+    pub metadata: Option<BTreeMap<String, serde_json::Value>>,
+}
+
+/// One trained model and the evidence for its claimed score.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+#[schemars(rename = "Model")]
+pub struct RawModel {
+    /// Unique name of the model within the check.
+    pub name: String,
+    /// Kind of prediction task.
+    pub task: Task,
+    /// The primary metric; the claim and all scores are in this metric.
+    pub metric: Metric,
+    /// Identifier of the training run.
+    #[serde(default)]
+    pub run_id: Option<String>,
+    /// Source revision the model was trained from.
+    #[serde(default)]
+    pub commit: Option<String>,
+    /// When training finished (RFC 3339, e.g. `2026-11-30T17:05:00Z`).
+    #[serde(default)]
+    pub trained_at: Option<String>,
+    /// Random seed of the training run.
+    #[serde(default)]
+    pub seed: Option<u64>,
+    /// Row counts and the identity of the test split.
+    #[schemars(with = "RawData")]
+    pub data: Spanned<RawData>,
+    /// The hyperparameter search and its cross-validation.
+    #[serde(default)]
+    #[schemars(with = "Option<RawSearch>")]
+    pub search: Option<Spanned<RawSearch>>,
+    /// Every time the test split was scored, oldest first; the last one is the reported test score.
+    #[serde(default)]
+    #[schemars(with = "Vec<RawEvaluation>")]
+    pub holdout: Vec<Spanned<RawEvaluation>>,
+    /// The score the team states for this model.
+    #[schemars(with = "RawClaim")]
+    pub claim: Spanned<RawClaim>,
+    /// Free-form information about the model; not read by any rule.
+    #[serde(default)]
+    pub metadata: Option<BTreeMap<String, serde_json::Value>>,
+}
+
+/// Row counts and the identity of the test split.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+#[schemars(rename = "Data")]
+pub struct RawData {
+    /// Rows available to training and cross-validation.
+    pub train_rows: u64,
+    /// Rows in the held-out test split.
+    pub test_rows: u64,
+    /// Identity of the test split: a hash of its sorted row ids. Holdout use is counted per
+    /// fingerprint, across every manifest in the check.
+    pub test_fingerprint: String,
+    /// Rows per class label, when known.
+    #[serde(default)]
+    pub class_counts: Option<RawClassCounts>,
+}
+
+/// Rows per class label in each split.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+#[schemars(rename = "ClassCounts")]
+pub struct RawClassCounts {
+    pub train: BTreeMap<String, u64>,
+    pub test: BTreeMap<String, u64>,
+}
+
+/// The hyperparameter search.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+#[schemars(rename = "Search")]
+pub struct RawSearch {
+    /// How configurations were chosen.
+    pub method: SearchMethod,
+    /// Number of configurations evaluated with cross-validation.
+    #[serde(default)]
+    pub configurations: Option<u64>,
+    /// The cross-validation of the selected configuration.
+    #[schemars(with = "RawCv")]
+    pub cv: Spanned<RawCv>,
+}
+
+/// Cross-validation of the selected configuration.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+#[schemars(rename = "CrossValidation")]
+pub struct RawCv {
+    /// How the training rows were split into folds.
+    pub scheme: CvScheme,
+    /// How many times the k-fold split was repeated (`repeated_k_fold` only; default 1).
+    #[serde(default)]
+    pub repeats: Option<u32>,
+    /// One entry per validation fold, in order.
+    #[schemars(with = "Vec<RawFold>")]
+    pub folds: Vec<Spanned<RawFold>>,
+}
+
+/// One validation fold of the selected configuration.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+#[schemars(rename = "Fold")]
+pub struct RawFold {
+    /// Rows in this validation fold.
+    pub rows: u64,
+    /// The metric on this fold.
+    pub score: f64,
+    /// Rows predicted correctly (accuracy only); derived from the score when absent.
+    #[serde(default)]
+    pub correct: Option<u64>,
+    /// Rows per class label in this validation fold, when known.
+    #[serde(default)]
+    pub class_rows: Option<BTreeMap<String, u64>>,
+}
+
+/// One scoring of the test split.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+#[schemars(rename = "Evaluation")]
+pub struct RawEvaluation {
+    /// When the test split was scored (RFC 3339).
+    #[serde(default)]
+    pub time: Option<String>,
+    /// The metric on the test split.
+    pub score: f64,
+    /// Rows predicted correctly (accuracy only); derived from the score when absent.
+    #[serde(default)]
+    pub correct: Option<u64>,
+    /// Rows scored; defaults to the test split's row count.
+    #[serde(default)]
+    pub rows: Option<u64>,
+    /// Why the test split was scored this time.
+    #[serde(default)]
+    pub note: Option<String>,
+}
+
+/// The score the team states.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+#[schemars(rename = "Claim")]
+pub struct RawClaim {
+    /// The stated value of the metric.
+    pub value: f64,
+    /// The metric of the claim; must equal the model's metric when given.
+    #[serde(default)]
+    pub metric: Option<Metric>,
+    /// Which evidence the claim rests on.
+    pub basis: Basis,
+    /// The claim as written in the merge request.
+    #[serde(default)]
+    pub text: Option<String>,
+}

@@ -1,0 +1,536 @@
+//! Raw manifest to validated [`Model`]s, collecting every problem.
+
+use std::collections::BTreeMap;
+
+use serde_saphyr::Spanned;
+
+use super::raw::{
+    RawClassCounts, RawCv, RawData, RawEvaluation, RawFold, RawManifest, RawModel, RawSearch,
+};
+use super::{
+    Claim, ClassCounts, CrossValidation, CvScheme, Data, Evaluation, FORMAT_VERSION, Fold, Metric,
+    Model, Origin, Search,
+};
+use crate::diag::{Diagnostic, Diagnostics, Place};
+
+/// A proportion score may be rounded by the writer; it is accepted as k/n when it lies within
+/// half a unit of the fourth decimal of k/n (scores are commonly printed with four decimals).
+const PROPORTION_ROUNDING: f64 = 5e-5;
+
+/// Validates a parsed manifest. `file` is used in diagnostics.
+pub fn validate(file: &str, raw: RawManifest) -> Result<Vec<Model>, Vec<Diagnostic>> {
+    let mut out = Diagnostics::default();
+    out.extend(crate::diag::format_version(
+        file,
+        "manifest",
+        raw.format_version,
+        FORMAT_VERSION,
+    ));
+    if raw.models.is_empty() {
+        out.push(Diagnostic::at(
+            file,
+            Place::default(),
+            "models",
+            "expected at least one model, found an empty list",
+        ));
+    }
+    let mut models = Vec::with_capacity(raw.models.len());
+    for (i, spanned) in raw.models.into_iter().enumerate() {
+        let mut v = Validator {
+            file,
+            out: &mut out,
+        };
+        if let Some(model) = v.model(&format!("models[{i}]"), spanned) {
+            models.push(model);
+        }
+    }
+    out.finish(models)
+}
+
+struct Validator<'a> {
+    file: &'a str,
+    out: &'a mut Diagnostics,
+}
+
+impl Validator<'_> {
+    fn problem(&mut self, place: Place, path: &str, message: impl Into<String>) {
+        self.out
+            .push(Diagnostic::at(self.file, place, path, message));
+    }
+
+    /// Checks a score is finite and inside the metric's range.
+    fn score(&mut self, place: Place, path: &str, metric: Metric, value: f64) -> bool {
+        let (lo, hi) = metric.range();
+        if !value.is_finite() {
+            self.problem(
+                place,
+                path,
+                format!("expected a finite number, found {value}"),
+            );
+            false
+        } else if value < lo || value > hi {
+            self.problem(
+                place,
+                path,
+                format!("{} must lie in [{lo}, {hi}], found {value}", metric.name()),
+            );
+            false
+        } else {
+            true
+        }
+    }
+
+    fn model(&mut self, path: &str, spanned: Spanned<RawModel>) -> Option<Model> {
+        let place = Place::of(&spanned.referenced);
+        let raw = spanned.value;
+        let before = self.out.len();
+        if raw.name.trim().is_empty() {
+            self.problem(
+                place,
+                &format!("{path}.name"),
+                "expected a model name, found an empty string",
+            );
+        }
+        if !raw.metric.fits(raw.task) {
+            self.problem(
+                place,
+                &format!("{path}.metric"),
+                format!(
+                    "metric {} does not apply to a {:?} task",
+                    raw.metric.name(),
+                    raw.task
+                )
+                .to_lowercase(),
+            );
+        }
+        let trained_at = raw
+            .trained_at
+            .as_deref()
+            .and_then(|t| self.timestamp(place, &format!("{path}.trained_at"), t));
+        let data = self.data(&format!("{path}.data"), raw.data);
+        let search = raw
+            .search
+            .and_then(|s| self.search(&format!("{path}.search"), raw.metric, data.as_ref(), s));
+        let holdout = self.holdout(path, raw.metric, data.as_ref(), raw.holdout);
+        let claim = self.claim(&format!("{path}.claim"), raw.metric, raw.claim);
+        if self.out.len() > before {
+            return None;
+        }
+        Some(Model {
+            name: raw.name,
+            origin: Origin {
+                file: self.file.to_owned(),
+                line: place.line,
+            },
+            task: raw.task,
+            metric: raw.metric,
+            run_id: raw.run_id,
+            commit: raw.commit,
+            trained_at,
+            seed: raw.seed,
+            data: data?,
+            search,
+            holdout,
+            claim: claim?,
+        })
+    }
+
+    fn timestamp(&mut self, place: Place, path: &str, text: &str) -> Option<jiff::Timestamp> {
+        match text.parse::<jiff::Timestamp>() {
+            Ok(t) => Some(t),
+            Err(e) => {
+                self.out.push(
+                    Diagnostic::at(
+                        self.file,
+                        place,
+                        path,
+                        format!("expected an RFC 3339 time, found {text:?}: {e}"),
+                    )
+                    .with_help("write times like 2026-11-30T17:05:00Z"),
+                );
+                None
+            }
+        }
+    }
+
+    fn data(&mut self, path: &str, spanned: Spanned<RawData>) -> Option<Data> {
+        let place = Place::of(&spanned.referenced);
+        let raw = spanned.value;
+        let before = self.out.len();
+        if raw.train_rows == 0 {
+            self.problem(
+                place,
+                &format!("{path}.train_rows"),
+                "expected at least 1 row, found 0",
+            );
+        }
+        if raw.test_rows == 0 {
+            self.problem(
+                place,
+                &format!("{path}.test_rows"),
+                "expected at least 1 row, found 0",
+            );
+        }
+        if raw.test_fingerprint.trim().is_empty() {
+            self.problem(
+                place,
+                &format!("{path}.test_fingerprint"),
+                "expected the test split's fingerprint, found an empty string",
+            );
+        }
+        let class_counts = raw.class_counts.map(|RawClassCounts { train, test }| {
+            self.class_sum(
+                place,
+                &format!("{path}.class_counts.train"),
+                &train,
+                raw.train_rows,
+            );
+            self.class_sum(
+                place,
+                &format!("{path}.class_counts.test"),
+                &test,
+                raw.test_rows,
+            );
+            ClassCounts { train, test }
+        });
+        (self.out.len() == before).then_some(Data {
+            train_rows: raw.train_rows,
+            test_rows: raw.test_rows,
+            test_fingerprint: raw.test_fingerprint,
+            class_counts,
+        })
+    }
+
+    fn class_sum(&mut self, place: Place, path: &str, counts: &BTreeMap<String, u64>, rows: u64) {
+        let sum: u64 = counts.values().sum();
+        if sum != rows {
+            self.problem(
+                place,
+                path,
+                format!("class counts add up to {sum} rows, but the split has {rows}"),
+            );
+        }
+    }
+
+    fn search(
+        &mut self,
+        path: &str,
+        metric: Metric,
+        data: Option<&Data>,
+        spanned: Spanned<RawSearch>,
+    ) -> Option<Search> {
+        let place = Place::of(&spanned.referenced);
+        let raw = spanned.value;
+        if raw.configurations == Some(0) {
+            self.problem(
+                place,
+                &format!("{path}.configurations"),
+                "expected at least 1 configuration, found 0",
+            );
+        }
+        let cv = self.cv(&format!("{path}.cv"), metric, data, raw.cv)?;
+        Some(Search {
+            method: raw.method,
+            configurations: raw.configurations.filter(|&c| c > 0),
+            cv,
+        })
+    }
+
+    fn cv(
+        &mut self,
+        path: &str,
+        metric: Metric,
+        data: Option<&Data>,
+        spanned: Spanned<RawCv>,
+    ) -> Option<CrossValidation> {
+        let place = Place::of(&spanned.referenced);
+        let raw = spanned.value;
+        let before = self.out.len();
+        let repeats = match (raw.scheme, raw.repeats) {
+            (CvScheme::RepeatedKFold, Some(0)) => {
+                self.problem(
+                    place,
+                    &format!("{path}.repeats"),
+                    "expected at least 1 repeat, found 0",
+                );
+                1
+            }
+            (CvScheme::RepeatedKFold, r) => r.unwrap_or(1),
+            (_, Some(_)) => {
+                self.problem(
+                    place,
+                    &format!("{path}.repeats"),
+                    "repeats apply only to the repeated_k_fold scheme",
+                );
+                1
+            }
+            (_, None) => 1,
+        };
+        let min_folds = if raw.scheme == CvScheme::TimeOrdered {
+            1
+        } else {
+            2
+        };
+        if raw.folds.len() < min_folds {
+            self.problem(
+                place,
+                &format!("{path}.folds"),
+                format!(
+                    "expected at least {min_folds} folds for this scheme, found {}",
+                    raw.folds.len()
+                ),
+            );
+        }
+        let folds: Vec<Fold> = raw
+            .folds
+            .into_iter()
+            .enumerate()
+            .filter_map(|(i, f)| self.fold(&format!("{path}.folds[{i}]"), metric, f))
+            .collect();
+        if self.out.len() > before {
+            return None;
+        }
+        if let Some(data) = data {
+            self.fold_total(place, path, raw.scheme, repeats, &folds, data.train_rows);
+        }
+        (self.out.len() == before).then_some(CrossValidation {
+            scheme: raw.scheme,
+            repeats,
+            folds,
+        })
+    }
+
+    /// Fold sizes must account for the training rows: once per repeat for k-fold schemes, at
+    /// most once for time-ordered splits (early rows are never validated).
+    fn fold_total(
+        &mut self,
+        place: Place,
+        path: &str,
+        scheme: CvScheme,
+        repeats: u32,
+        folds: &[Fold],
+        train_rows: u64,
+    ) {
+        let total: u64 = folds.iter().map(|f| f.rows).sum();
+        let expected = train_rows * u64::from(repeats);
+        let path = format!("{path}.folds");
+        if scheme == CvScheme::TimeOrdered {
+            if total > train_rows {
+                self.problem(
+                    place,
+                    &path,
+                    format!(
+                        "time-ordered folds hold {total} validation rows, more than the {train_rows} training rows"
+                    ),
+                );
+            }
+        } else if total != expected {
+            let per = if repeats > 1 {
+                format!("{repeats} repeats × {train_rows} training rows = {expected}")
+            } else {
+                format!("the {train_rows} training rows")
+            };
+            self.out.push(
+                Diagnostic::at(
+                    self.file,
+                    place,
+                    path,
+                    format!("fold sizes add up to {total} rows, expected {per}"),
+                )
+                .with_help("every training row is validated exactly once per repeat in k-fold cross-validation"),
+            );
+        }
+    }
+
+    fn fold(&mut self, path: &str, metric: Metric, spanned: Spanned<RawFold>) -> Option<Fold> {
+        let place = Place::of(&spanned.referenced);
+        let raw = spanned.value;
+        if raw.rows == 0 {
+            self.problem(
+                place,
+                &format!("{path}.rows"),
+                "expected at least 1 row, found 0",
+            );
+            return None;
+        }
+        if !self.score(place, &format!("{path}.score"), metric, raw.score) {
+            return None;
+        }
+        if let Some(class_rows) = &raw.class_rows {
+            self.class_sum(place, &format!("{path}.class_rows"), class_rows, raw.rows);
+        }
+        let correct = self.correct_rows(place, path, metric, raw.score, raw.correct, raw.rows)?;
+        Some(Fold {
+            rows: raw.rows,
+            score: raw.score,
+            correct,
+            class_rows: raw.class_rows,
+        })
+    }
+
+    /// The correct rows behind a score: `Some(Some(k))` for a proportion metric, `Some(None)` for
+    /// other metrics, `None` (with a diagnostic) when the score and count do not fit.
+    fn correct_rows(
+        &mut self,
+        place: Place,
+        path: &str,
+        metric: Metric,
+        score: f64,
+        stated: Option<u64>,
+        rows: u64,
+    ) -> Option<Option<u64>> {
+        if metric.is_proportion() {
+            return self
+                .count(place, &format!("{path}.score"), score, stated, rows)
+                .map(Some);
+        }
+        if stated.is_some() {
+            self.problem(
+                place,
+                &format!("{path}.correct"),
+                format!(
+                    "a count of correct rows does not apply to {}",
+                    metric.name()
+                ),
+            );
+            return None;
+        }
+        Some(None)
+    }
+
+    /// The number of correct rows behind a proportion score, checked against a stated count.
+    fn count(
+        &mut self,
+        place: Place,
+        path: &str,
+        score: f64,
+        stated: Option<u64>,
+        rows: u64,
+    ) -> Option<u64> {
+        if let Some(correct) = stated {
+            if correct > rows {
+                self.problem(
+                    place,
+                    path,
+                    format!("{correct} correct rows out of {rows} is impossible"),
+                );
+                return None;
+            }
+            let implied = correct as f64 / rows as f64;
+            if (implied - score).abs() > PROPORTION_ROUNDING {
+                self.problem(
+                    place,
+                    path,
+                    format!("score {score} disagrees with {correct} correct out of {rows} rows ({implied:.6})"),
+                );
+                return None;
+            }
+            return Some(correct);
+        }
+        let nearest = (score * rows as f64).round();
+        if (nearest / rows as f64 - score).abs() > PROPORTION_ROUNDING {
+            self.out.push(
+                Diagnostic::at(
+                    self.file,
+                    place,
+                    path,
+                    format!("score {score} is not a whole number of correct rows out of {rows}"),
+                )
+                .with_help("an accuracy on n rows is k/n; check the row count, or give `correct` explicitly"),
+            );
+            return None;
+        }
+        Some(nearest as u64)
+    }
+
+    fn holdout(
+        &mut self,
+        model_path: &str,
+        metric: Metric,
+        data: Option<&Data>,
+        raw: Vec<Spanned<RawEvaluation>>,
+    ) -> Vec<Evaluation> {
+        let mut evaluations = Vec::with_capacity(raw.len());
+        let mut previous: Option<jiff::Timestamp> = None;
+        for (i, spanned) in raw.into_iter().enumerate() {
+            let path = format!("{model_path}.holdout[{i}]");
+            let place = Place::of(&spanned.referenced);
+            let e = spanned.value;
+            let time = e
+                .time
+                .as_deref()
+                .and_then(|t| self.timestamp(place, &format!("{path}.time"), t));
+            if let (Some(now), Some(before)) = (time, previous)
+                && now < before
+            {
+                self.out.push(
+                        Diagnostic::at(self.file, place, format!("{path}.time"), format!("{now} is earlier than the previous evaluation at {before}"))
+                            .with_help("list holdout evaluations oldest first; the last one is the reported test score"),
+                    );
+            }
+            previous = time.or(previous);
+            let Some(data) = data else { continue };
+            let rows = e.rows.unwrap_or(data.test_rows);
+            if rows == 0 || rows > data.test_rows {
+                self.problem(
+                    place,
+                    &format!("{path}.rows"),
+                    format!(
+                        "expected between 1 and the {} test rows, found {rows}",
+                        data.test_rows
+                    ),
+                );
+                continue;
+            }
+            if !self.score(place, &format!("{path}.score"), metric, e.score) {
+                continue;
+            }
+            let Some(correct) = self.correct_rows(place, &path, metric, e.score, e.correct, rows)
+            else {
+                continue;
+            };
+            evaluations.push(Evaluation {
+                time,
+                score: e.score,
+                rows,
+                correct,
+                note: e.note,
+            });
+        }
+        evaluations
+    }
+
+    fn claim(
+        &mut self,
+        path: &str,
+        metric: Metric,
+        spanned: Spanned<super::raw::RawClaim>,
+    ) -> Option<Claim> {
+        let place = Place::of(&spanned.referenced);
+        let raw = spanned.value;
+        let mut ok = self.score(place, &format!("{path}.value"), metric, raw.value);
+        if let Some(claimed) = raw.metric
+            && claimed != metric
+        {
+            self.out.push(
+                Diagnostic::at(
+                    self.file,
+                    place,
+                    format!("{path}.metric"),
+                    format!(
+                        "the claim is in {} but the model's metric is {}",
+                        claimed.name(),
+                        metric.name()
+                    ),
+                )
+                .with_help("state the claim in the model's primary metric"),
+            );
+            ok = false;
+        }
+        ok.then_some(Claim {
+            value: raw.value,
+            basis: raw.basis,
+            text: raw.text,
+        })
+    }
+}

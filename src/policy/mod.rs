@@ -1,0 +1,402 @@
+//! The policy: what a team declares once and wants enforced on every run.
+//!
+//! A policy file (YAML) is parsed into the raw types below, then validated into a [`Policy`]:
+//! globs compiled, values range-checked, waivers' rules and dates checked, every problem collected
+//! with its file, key path and line. No policy file means [`Policy::defaults`], which are
+//! documented in `docs/policy.md` and printed by `vetscore init`.
+
+use std::collections::BTreeMap;
+use std::path::Path;
+
+use globset::{Glob, GlobMatcher};
+use schemars::JsonSchema;
+use serde::{Deserialize, Serialize};
+use serde_saphyr::Spanned;
+use sha2::{Digest, Sha256};
+
+use crate::diag::{Diagnostic, Diagnostics, Place, closest};
+use crate::finding::PolicySource;
+use crate::input::{self, Syntax};
+use crate::rules::{self, RawRuleSettings, RuleSettings};
+use crate::stats::ProportionMethod;
+
+/// The policy format version this build reads.
+pub const FORMAT_VERSION: u32 = 1;
+
+/// What an inconclusive rule (missing evidence) does.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize, JsonSchema)]
+#[serde(rename_all = "snake_case")]
+pub enum Inconclusive {
+    /// Counts like a failure of the rule at its severity (the default: missing evidence is not
+    /// a pass).
+    #[default]
+    Fail,
+    /// Reported as a warning whatever the rule's severity.
+    Warn,
+}
+
+/// A policy file as written.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+#[schemars(title = "vetscore policy", rename = "Policy")]
+pub struct RawPolicy {
+    /// Policy format version; this build reads version 1.
+    pub format_version: u32,
+    /// Confidence level of every interval and test, in (0, 1). Default 0.95.
+    #[serde(default)]
+    pub confidence: Option<f64>,
+    /// Interval for proportions such as accuracy. Default `wilson`.
+    #[serde(default)]
+    pub interval_method: Option<ProportionMethod>,
+    /// What a rule that lacks evidence does. Default `fail`.
+    #[serde(default)]
+    pub inconclusive: Option<Inconclusive>,
+    /// Settings per rule id.
+    #[serde(default)]
+    #[schemars(with = "Option<RawRuleSettings>")]
+    pub rules: Option<Spanned<RawRuleSettings>>,
+    /// Rule settings for models whose names match glob patterns; later entries win.
+    #[serde(default)]
+    #[schemars(with = "Vec<RawOverride>")]
+    pub overrides: Vec<Spanned<RawOverride>>,
+    /// Dated exceptions: a rule's failure on matching models is reported, not enforced.
+    #[serde(default)]
+    #[schemars(with = "Vec<RawWaiver>")]
+    pub waivers: Vec<Spanned<RawWaiver>>,
+}
+
+/// Rule settings for a group of models.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+#[schemars(rename = "Override")]
+pub struct RawOverride {
+    /// Glob patterns on model names, e.g. `reef-*`.
+    pub models: Vec<String>,
+    /// Settings that replace the policy's for matching models.
+    pub rules: RawRuleSettings,
+}
+
+/// A dated exception.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+#[schemars(rename = "Waiver")]
+pub struct RawWaiver {
+    /// The rule id the waiver covers.
+    pub rule: String,
+    /// Glob pattern on model names.
+    pub models: String,
+    /// Why the exception is acceptable.
+    pub reason: String,
+    /// Last day the waiver applies (YYYY-MM-DD).
+    pub expires: String,
+}
+
+/// A validated policy.
+#[derive(Debug, Clone)]
+pub struct Policy {
+    /// The file the policy came from, if any.
+    pub file: Option<String>,
+    /// SHA-256 of the policy file's bytes, or `defaults`.
+    pub digest: String,
+    pub confidence: f64,
+    pub interval_method: ProportionMethod,
+    pub inconclusive: Inconclusive,
+    base: RuleSettings,
+    base_line: Option<u64>,
+    base_touched: Vec<&'static str>,
+    overrides: Vec<Override>,
+    waivers: Vec<Waiver>,
+}
+
+#[derive(Debug, Clone)]
+struct Override {
+    patterns: Vec<(String, GlobMatcher)>,
+    rules: RawRuleSettings,
+    line: Option<u64>,
+}
+
+/// A validated waiver.
+#[derive(Debug, Clone)]
+pub struct Waiver {
+    pub rule: String,
+    pub pattern: String,
+    matcher: GlobMatcher,
+    pub reason: String,
+    pub expires: jiff::civil::Date,
+    /// `waivers[i]`.
+    pub path: String,
+    pub line: Option<u64>,
+}
+
+impl Waiver {
+    /// Whether the waiver names this model.
+    pub fn matches(&self, model: &str) -> bool {
+        self.matcher.is_match(model)
+    }
+}
+
+impl Policy {
+    /// The documented defaults, used when no policy file is given.
+    pub fn defaults() -> Policy {
+        Policy {
+            file: None,
+            digest: "defaults".to_owned(),
+            confidence: 0.95,
+            interval_method: ProportionMethod::Wilson,
+            inconclusive: Inconclusive::Fail,
+            base: RuleSettings::default(),
+            base_line: None,
+            base_touched: Vec::new(),
+            overrides: Vec::new(),
+            waivers: Vec::new(),
+        }
+    }
+
+    /// Reads and validates a policy file.
+    pub fn load(path: &Path) -> Result<Policy, Vec<Diagnostic>> {
+        let file = path.display().to_string();
+        let text = input::read_text(path).map_err(|d| vec![d])?;
+        let raw: RawPolicy =
+            input::parse(&file, &text, Syntax::detect(path, &text)).map_err(|d| vec![d])?;
+        let digest = hex(&Sha256::digest(text.as_bytes()));
+        validate(&file, raw, digest)
+    }
+
+    /// The rule settings for one model, with where each rule's settings came from.
+    pub fn settings_for(
+        &self,
+        model: &str,
+    ) -> (RuleSettings, BTreeMap<&'static str, PolicySource>) {
+        let mut settings = self.base.clone();
+        let mut sources: BTreeMap<&'static str, PolicySource> = rules::RULES
+            .iter()
+            .map(|r| {
+                let source = if self.base_touched.contains(&r.id) {
+                    PolicySource {
+                        path: format!("rules.{}", r.id),
+                        line: self.base_line,
+                    }
+                } else {
+                    PolicySource {
+                        path: "defaults".to_owned(),
+                        line: None,
+                    }
+                };
+                (r.id, source)
+            })
+            .collect();
+        for (i, o) in self.overrides.iter().enumerate() {
+            if o.patterns.iter().any(|(_, m)| m.is_match(model)) {
+                for id in settings.apply(&o.rules) {
+                    sources.insert(
+                        id,
+                        PolicySource {
+                            path: format!("overrides[{i}].rules.{id}"),
+                            line: o.line,
+                        },
+                    );
+                }
+            }
+        }
+        (settings, sources)
+    }
+
+    /// The waivers naming this model.
+    pub fn waivers_for<'a>(&'a self, model: &'a str) -> impl Iterator<Item = &'a Waiver> + 'a {
+        self.waivers.iter().filter(move |w| w.matches(model))
+    }
+
+    /// Policy entries that matched none of the models: probably a typo or a stale entry.
+    pub fn unmatched_entries(&self, models: &[&str]) -> Vec<String> {
+        let mut out = Vec::new();
+        for (i, o) in self.overrides.iter().enumerate() {
+            for (pattern, m) in &o.patterns {
+                if !models.iter().any(|name| m.is_match(name)) {
+                    out.push(format!(
+                        "overrides[{i}]: pattern {pattern:?} matched no model"
+                    ));
+                }
+            }
+        }
+        for w in &self.waivers {
+            if !models.iter().any(|name| w.matches(name)) {
+                out.push(format!(
+                    "{}: pattern {:?} matched no model",
+                    w.path, w.pattern
+                ));
+            }
+        }
+        out
+    }
+}
+
+fn hex(bytes: &[u8]) -> String {
+    bytes.iter().map(|b| format!("{b:02x}")).collect()
+}
+
+/// Validates a parsed policy, collecting every problem.
+pub fn validate(file: &str, raw: RawPolicy, digest: String) -> Result<Policy, Vec<Diagnostic>> {
+    let mut out = Diagnostics::default();
+    out.extend(crate::diag::format_version(
+        file,
+        "policy",
+        raw.format_version,
+        FORMAT_VERSION,
+    ));
+    let defaults = Policy::defaults();
+    let confidence = raw.confidence.unwrap_or(defaults.confidence);
+    if !(confidence > 0.0 && confidence < 1.0) {
+        out.push(Diagnostic::at(
+            file,
+            Place::default(),
+            "confidence",
+            format!("expected a number between 0 and 1 (exclusive), found {confidence}"),
+        ));
+    }
+    let mut base = RuleSettings::default();
+    let (base_touched, base_line) = match &raw.rules {
+        Some(rules) => {
+            let place = Place::of(&rules.referenced);
+            setting_problems(&mut out, file, place, "rules", &rules.value);
+            (base.apply(&rules.value), place.line)
+        }
+        None => (Vec::new(), None),
+    };
+    let mut overrides = Vec::new();
+    for (i, spanned) in raw.overrides.into_iter().enumerate() {
+        let place = Place::of(&spanned.referenced);
+        let path = format!("overrides[{i}]");
+        let o = spanned.value;
+        if o.models.is_empty() {
+            out.push(Diagnostic::at(
+                file,
+                place,
+                format!("{path}.models"),
+                "expected at least one model pattern, found an empty list",
+            ));
+        }
+        let patterns = o
+            .models
+            .iter()
+            .enumerate()
+            .filter_map(|(j, p)| {
+                compile(&mut out, file, place, &format!("{path}.models[{j}]"), p)
+                    .map(|m| (p.clone(), m))
+            })
+            .collect();
+        setting_problems(&mut out, file, place, &format!("{path}.rules"), &o.rules);
+        overrides.push(Override {
+            patterns,
+            rules: o.rules,
+            line: place.line,
+        });
+    }
+    let mut waivers = Vec::new();
+    for (i, spanned) in raw.waivers.into_iter().enumerate() {
+        let place = Place::of(&spanned.referenced);
+        let path = format!("waivers[{i}]");
+        let w = spanned.value;
+        if rules::rule(&w.rule).is_none() {
+            let mut d = Diagnostic::at(
+                file,
+                place,
+                format!("{path}.rule"),
+                format!("no rule is named {:?}", w.rule),
+            );
+            if let Some(c) = closest(&w.rule, rules::RULES.iter().map(|r| r.id)) {
+                d = d.with_help(format!("did you mean `{c}`?"));
+            }
+            out.push(d);
+        }
+        if w.reason.trim().is_empty() {
+            out.push(Diagnostic::at(
+                file,
+                place,
+                format!("{path}.reason"),
+                "expected a reason, found an empty string",
+            ));
+        }
+        let expires = match w.expires.parse::<jiff::civil::Date>() {
+            Ok(d) => Some(d),
+            Err(e) => {
+                out.push(
+                    Diagnostic::at(
+                        file,
+                        place,
+                        format!("{path}.expires"),
+                        format!("expected a date, found {:?}: {e}", w.expires),
+                    )
+                    .with_help("write dates as YYYY-MM-DD"),
+                );
+                None
+            }
+        };
+        let matcher = compile(&mut out, file, place, &format!("{path}.models"), &w.models);
+        if let (Some(expires), Some(matcher)) = (expires, matcher) {
+            waivers.push(Waiver {
+                rule: w.rule,
+                pattern: w.models,
+                matcher,
+                reason: w.reason,
+                expires,
+                path,
+                line: place.line,
+            });
+        }
+    }
+    out.finish(Policy {
+        file: Some(file.to_owned()),
+        digest,
+        confidence,
+        interval_method: raw.interval_method.unwrap_or(defaults.interval_method),
+        inconclusive: raw.inconclusive.unwrap_or_default(),
+        base,
+        base_line,
+        base_touched,
+        overrides,
+        waivers,
+    })
+}
+
+fn setting_problems(
+    out: &mut Diagnostics,
+    file: &str,
+    place: Place,
+    path: &str,
+    raw: &RawRuleSettings,
+) {
+    for (key, message) in raw.problems() {
+        out.push(Diagnostic::at(
+            file,
+            place,
+            format!("{path}.{key}"),
+            message,
+        ));
+    }
+}
+
+fn compile(
+    out: &mut Diagnostics,
+    file: &str,
+    place: Place,
+    path: &str,
+    pattern: &str,
+) -> Option<GlobMatcher> {
+    match Glob::new(pattern) {
+        Ok(g) => Some(g.compile_matcher()),
+        Err(e) => {
+            out.push(Diagnostic::at(
+                file,
+                place,
+                path,
+                format!("invalid glob pattern {pattern:?}: {}", e.kind()),
+            ));
+            None
+        }
+    }
+}
+
+/// The JSON Schema of the policy format.
+pub fn schema() -> schemars::Schema {
+    schemars::schema_for!(RawPolicy)
+}

@@ -1,0 +1,272 @@
+//! The one view every output renders: JSON serializes it, the Markdown and terminal renderers
+//! read it. Numbers stay raw here; formatted copies (`*_text`) exist only where a sentence or a
+//! strip needs them, so the outputs cannot disagree.
+
+use schemars::JsonSchema;
+use serde::Serialize;
+
+use super::{escape, format};
+use crate::estimate::{Estimate, IntervalBasis};
+use crate::evaluate::{Assessment, ModelAssessment};
+use crate::finding::{Evidence, EvidenceValue, Finding, Severity, Status, Verdict};
+use crate::manifest::{Basis, Metric};
+use crate::policy::Policy;
+use crate::rules;
+
+/// Version of the JSON report format; bumped on any incompatible change.
+pub const REPORT_VERSION: u32 = 1;
+
+#[derive(Debug, Clone, Serialize, JsonSchema)]
+pub struct View {
+    pub report_version: u32,
+    pub tool: Tool,
+    pub verdict: Verdict,
+    pub verdict_label: &'static str,
+    pub counts: Counts,
+    pub policy: PolicyView,
+    /// Remarks about the policy, such as entries that matched no model.
+    pub notes: Vec<String>,
+    pub models: Vec<ModelView>,
+}
+
+#[derive(Debug, Clone, Serialize, JsonSchema)]
+pub struct Tool {
+    pub name: &'static str,
+    pub version: &'static str,
+}
+
+#[derive(Debug, Clone, Serialize, JsonSchema)]
+pub struct Counts {
+    pub models: usize,
+    pub supported: usize,
+    pub with_warnings: usize,
+    pub not_supported: usize,
+}
+
+#[derive(Debug, Clone, Serialize, JsonSchema)]
+pub struct PolicyView {
+    pub file: Option<String>,
+    pub digest: String,
+    pub confidence: f64,
+    pub confidence_text: String,
+    pub interval_method: crate::stats::ProportionMethod,
+    pub interval_method_label: &'static str,
+}
+
+#[derive(Debug, Clone, Serialize, JsonSchema)]
+pub struct ModelView {
+    pub name: String,
+    pub file: String,
+    pub line: Option<u64>,
+    pub metric: Metric,
+    pub higher_is_better: bool,
+    pub claim: ClaimView,
+    pub cv: Option<EstimateView>,
+    pub test: Option<EstimateView>,
+    /// CV estimate minus test score.
+    pub gap: Option<f64>,
+    pub verdict: Verdict,
+    pub verdict_label: &'static str,
+    pub findings: Vec<FindingView>,
+    /// The interval strip: monospace lines showing the CV and test intervals and the claim.
+    pub strip: Vec<String>,
+}
+
+#[derive(Debug, Clone, Serialize, JsonSchema)]
+pub struct ClaimView {
+    pub value: f64,
+    pub basis: Basis,
+    pub text: Option<String>,
+}
+
+#[derive(Debug, Clone, Serialize, JsonSchema)]
+pub struct EstimateView {
+    pub value: f64,
+    pub lower: Option<f64>,
+    pub upper: Option<f64>,
+    pub rows: u64,
+    pub correct: Option<u64>,
+    pub basis: IntervalBasis,
+}
+
+#[derive(Debug, Clone, Serialize, JsonSchema)]
+pub struct FindingView {
+    pub rule: &'static str,
+    pub rule_name: &'static str,
+    pub severity: Severity,
+    pub status: Status,
+    /// The finding's sentence with its numbers filled in, as plain text.
+    pub message: String,
+    /// The same sentence, safe to place in Markdown.
+    pub message_markdown: String,
+    pub evidence: Vec<EvidenceView>,
+    pub policy: crate::finding::PolicySource,
+    pub waiver: Option<crate::finding::WaiverNote>,
+}
+
+#[derive(Debug, Clone, Serialize, JsonSchema)]
+pub struct EvidenceView {
+    pub key: &'static str,
+    pub label: &'static str,
+    #[serde(flatten)]
+    pub value: EvidenceValue,
+    /// The value as the report shows it.
+    pub text: String,
+}
+
+/// Builds the view of an assessment.
+pub fn build(assessment: &Assessment, policy: &Policy) -> View {
+    let models: Vec<ModelView> = assessment.models.iter().map(model_view).collect();
+    let count = |v: Verdict| models.iter().filter(|m| m.verdict == v).count();
+    View {
+        report_version: REPORT_VERSION,
+        tool: Tool {
+            name: env!("CARGO_PKG_NAME"),
+            version: env!("CARGO_PKG_VERSION"),
+        },
+        verdict: assessment.verdict,
+        verdict_label: assessment.verdict.label(),
+        counts: Counts {
+            models: models.len(),
+            supported: count(Verdict::Supported),
+            with_warnings: count(Verdict::SupportedWithWarnings),
+            not_supported: count(Verdict::NotSupported),
+        },
+        policy: PolicyView {
+            file: policy.file.clone(),
+            digest: policy.digest.clone(),
+            confidence: policy.confidence,
+            confidence_text: format::confidence(policy.confidence),
+            interval_method: policy.interval_method,
+            interval_method_label: method_label(policy.interval_method),
+        },
+        notes: assessment.notes.clone(),
+        models,
+    }
+}
+
+fn method_label(method: crate::stats::ProportionMethod) -> &'static str {
+    use crate::stats::ProportionMethod as M;
+    match method {
+        M::Wilson => "Wilson",
+        M::ClopperPearson => "Clopper–Pearson",
+        M::AgrestiCoull => "Agresti–Coull",
+        M::Jeffreys => "Jeffreys",
+    }
+}
+
+fn model_view(m: &ModelAssessment) -> ModelView {
+    let estimate = |e: &Estimate| EstimateView {
+        value: e.value,
+        lower: e.interval.map(|i| i.lower),
+        upper: e.interval.map(|i| i.upper),
+        rows: e.rows,
+        correct: e.correct,
+        basis: e.basis,
+    };
+    let cv = m.cv.as_ref().map(estimate);
+    let test = m.test.as_ref().map(estimate);
+    ModelView {
+        name: m.model.name.clone(),
+        file: m.model.origin.file.clone(),
+        line: m.model.origin.line,
+        metric: m.model.metric,
+        higher_is_better: m.model.metric.higher_is_better(),
+        claim: ClaimView {
+            value: m.model.claim.value,
+            basis: m.model.claim.basis,
+            text: m.model.claim.text.clone(),
+        },
+        gap: match (&cv, &test) {
+            (Some(c), Some(t)) => Some(c.value - t.value),
+            _ => None,
+        },
+        strip: super::strip::draw(
+            m.model.metric,
+            cv.as_ref(),
+            test.as_ref(),
+            m.model.claim.value,
+        ),
+        cv,
+        test,
+        verdict: m.verdict,
+        verdict_label: m.verdict.label(),
+        findings: m.findings.iter().map(finding_view).collect(),
+    }
+}
+
+fn finding_view(f: &Finding) -> FindingView {
+    FindingView {
+        rule: f.rule,
+        rule_name: rules::rule(f.rule).map_or(f.rule, |r| r.name),
+        severity: f.severity,
+        status: f.status,
+        message: fill(&f.sentence, &f.evidence, |s| s.to_owned()),
+        message_markdown: fill(&f.sentence, &f.evidence, escape::markdown),
+        evidence: f
+            .evidence
+            .iter()
+            .map(|e| EvidenceView {
+                key: e.key,
+                label: e.label,
+                value: e.value.clone(),
+                text: format::evidence(&e.value),
+            })
+            .collect(),
+        policy: f.policy.clone(),
+        waiver: f.waiver.clone(),
+    }
+}
+
+/// Replaces each `{key}` in a sentence with its formatted evidence value. Text values pass through
+/// `text`, so the Markdown copy escapes them; numbers never need escaping.
+fn fill(sentence: &str, evidence: &[Evidence], text: impl Fn(&str) -> String) -> String {
+    let mut out = String::with_capacity(sentence.len() + 32);
+    let mut rest = sentence;
+    while let Some(open) = rest.find('{') {
+        out.push_str(&rest[..open]);
+        let after = &rest[open + 1..];
+        match after.find('}') {
+            Some(close) => {
+                let key = &after[..close];
+                match evidence.iter().find(|e| e.key == key) {
+                    Some(e) => match &e.value {
+                        EvidenceValue::Text { value } => out.push_str(&text(value)),
+                        other => out.push_str(&format::evidence(other)),
+                    },
+                    // A sentence naming absent evidence is a bug in the rule; show it plainly.
+                    None => out.push_str(&format!("(missing {key})")),
+                }
+                rest = &after[close + 1..];
+            }
+            None => {
+                out.push_str(&rest[open..]);
+                rest = "";
+            }
+        }
+    }
+    out.push_str(rest);
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::finding::Quantity;
+
+    #[test]
+    fn fill_formats_numbers_and_escapes_text() {
+        let evidence = vec![
+            Evidence::number("gap", "Gap", 0.1834, Quantity::Score),
+            Evidence::text("missing", "Missing", "seed <b>"),
+        ];
+        assert_eq!(
+            fill("gap {gap}; missing {missing}.", &evidence, escape::markdown),
+            "gap 0.1834; missing seed &lt;b&gt;."
+        );
+        assert_eq!(
+            fill("{nothing}", &evidence, |s| s.to_owned()),
+            "(missing nothing)"
+        );
+    }
+}

@@ -1,0 +1,107 @@
+//! Claim support: the stated score lies inside the interval of the evidence it rests on.
+
+use super::{Context, Outcome, RuleInfo, RuleSettings, Subject, rule_settings};
+use crate::finding::{Evidence, Quantity, Severity};
+use crate::manifest::Basis;
+
+rule_settings! {
+    /// Settings of the claim-support rule.
+    severity = Severity::Error;
+    /// Whether a claim may rest on cross-validation alone.
+    allow_cv_claims: bool = true,
+}
+
+pub const RULE: RuleInfo = RuleInfo {
+    id: "claim_support",
+    name: "Claim support",
+    explanation: "Checks the score the team states against the evidence the claim names as its \
+basis. A claim with basis `test` must lie inside the confidence interval of the last test-split \
+score (for accuracy a binomial interval on the count of correct rows, by the policy's \
+`interval_method`: Wilson 1927 by default, or Clopper–Pearson 1934, Agresti–Coull 1998, \
+Jeffreys as in Brown, Cai & DasGupta 2001). A claim above the interval overstates the model; a \
+claim below it understates it and is also flagged, because the stated number does not describe \
+the evidence. A claim with basis `cv` must lie inside the cross-validation interval; it rests on \
+the best of many configurations, so the policy may forbid it with `allow_cv_claims: false`.",
+    check,
+};
+
+pub fn problems(_raw: &RawSettings) -> Vec<(String, String)> {
+    Vec::new()
+}
+
+fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
+    let settings = &settings.claim_support;
+    let claim = &subject.model.claim;
+    let mut evidence = vec![Evidence::number(
+        "claim",
+        "Claimed score",
+        claim.value,
+        Quantity::Score,
+    )];
+    let (estimate, what) = match claim.basis {
+        Basis::Test => (&subject.test, "test"),
+        Basis::Cv => {
+            if !settings.allow_cv_claims {
+                return Outcome::fail(
+                    "The claim rests on cross-validation, which this policy does not accept; \
+                     state the test-split score instead.",
+                    evidence,
+                );
+            }
+            (&subject.cv, "CV")
+        }
+    };
+    let Some(estimate) = estimate else {
+        return Outcome::inconclusive(if claim.basis == Basis::Test {
+            "The claim rests on the test split, but the manifest records no test evaluation."
+        } else {
+            "The claim rests on cross-validation, but the manifest records no folds."
+        });
+    };
+    let Some(interval) = estimate.interval else {
+        return Outcome::inconclusive(format!(
+            "The claim rests on the {what} score, which has no interval for {} without \
+             per-example predictions.",
+            subject.model.metric.name()
+        ));
+    };
+    evidence.push(Evidence::number(
+        "estimate",
+        "Estimate",
+        estimate.value,
+        Quantity::Score,
+    ));
+    evidence.push(Evidence::interval(
+        "interval",
+        "Interval",
+        interval,
+        ctx.confidence,
+    ));
+    let inside = interval.contains(claim.value);
+    let higher = claim.value > interval.upper;
+    let overstates = if subject.model.metric.higher_is_better() {
+        higher
+    } else {
+        !higher
+    };
+    match (claim.basis, inside, overstates) {
+        (Basis::Test, true, _) => Outcome::pass(
+            "The claimed {claim} lies inside the test interval {interval}.",
+            evidence,
+        ),
+        (Basis::Cv, true, _) => Outcome::pass(
+            "The claimed {claim} is a cross-validation claim and lies inside the CV interval \
+             {interval}; a best-of-many CV score is optimistic, so prefer a test-split claim.",
+            evidence,
+        ),
+        (_, false, true) => Outcome::fail(
+            "The claimed {claim} is better than the evidence supports: the interval is {interval}.",
+            evidence,
+        ),
+        (_, false, false) => Outcome::fail(
+            "The claimed {claim} lies outside the interval {interval} on the worse side; the \
+             stated number does not describe the evidence.",
+            evidence,
+        ),
+    }
+}

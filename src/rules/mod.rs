@@ -1,0 +1,286 @@
+//! The rules: one module per rule, one registry list ([`RULES`]).
+//!
+//! A rule is pure: it reads a [`Subject`] (the model and its estimates), the shared [`Context`]
+//! and its own settings, and returns an [`Outcome`]. It does no I/O, prints nothing, reads no
+//! clock and formats no numbers; its sentence names evidence items as `{key}` placeholders and
+//! the report formats them. Each rule module owns its settings type, declared with
+//! [`rule_settings!`], so the policy file's `rules.<id>` block maps onto it one to one.
+
+use std::collections::BTreeMap;
+
+use schemars::JsonSchema;
+use serde::Deserialize;
+
+use crate::estimate::Estimate;
+use crate::finding::{Evidence, Severity, Status};
+use crate::manifest::Model;
+use crate::stats::ProportionMethod;
+
+pub mod claim_support;
+pub mod completeness;
+pub mod cv_test_gap;
+pub mod fold_size;
+pub mod holdout_budget;
+pub mod interval_overlap;
+pub mod waiver_expiry;
+
+/// Severity as written in a policy file.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, JsonSchema)]
+#[serde(rename_all = "snake_case")]
+pub enum SeverityName {
+    Error,
+    Warn,
+    Off,
+}
+
+impl From<SeverityName> for Severity {
+    fn from(s: SeverityName) -> Self {
+        match s {
+            SeverityName::Error => Severity::Error,
+            SeverityName::Warn => Severity::Warn,
+            SeverityName::Off => Severity::Off,
+        }
+    }
+}
+
+/// Declares a rule's settings: the resolved type with its defaults, and the raw policy-file type
+/// where every field is optional so that overrides can change one field at a time.
+macro_rules! rule_settings {
+    (
+        $(#[$meta:meta])*
+        severity = $severity:expr;
+        $( $(#[$fmeta:meta])* $field:ident : $ty:ty = $default:expr ),* $(,)?
+    ) => {
+        $(#[$meta])*
+        #[derive(Debug, Clone, PartialEq)]
+        pub struct Settings {
+            /// What a failure of this rule does.
+            pub severity: $crate::finding::Severity,
+            $( $(#[$fmeta])* pub $field: $ty, )*
+        }
+
+        impl Default for Settings {
+            fn default() -> Self {
+                Settings {
+                    severity: $severity,
+                    $( $field: $default, )*
+                }
+            }
+        }
+
+        /// The rule's block in a policy file; absent fields keep their current value.
+        #[derive(Debug, Clone, Default, serde::Deserialize, schemars::JsonSchema)]
+        #[serde(deny_unknown_fields)]
+        pub struct RawSettings {
+            /// `error` fails the run, `warn` reports only, `off` skips the rule.
+            #[serde(default)]
+            pub severity: Option<$crate::rules::SeverityName>,
+            $( $(#[$fmeta])* #[serde(default)] pub $field: Option<$ty>, )*
+        }
+
+        impl Settings {
+            /// Applies the fields present in `raw`.
+            pub fn apply(&mut self, raw: &RawSettings) {
+                if let Some(severity) = raw.severity {
+                    self.severity = severity.into();
+                }
+                $( if let Some(value) = &raw.$field { self.$field = value.clone(); } )*
+            }
+        }
+    };
+}
+pub(crate) use rule_settings;
+
+/// Declares the per-rule settings containers from the list of rule modules, so that a rule added
+/// to the list is added to the policy format in the same place.
+macro_rules! all_settings {
+    ($($id:ident),* $(,)?) => {
+        /// The settings of every rule for one model.
+        #[derive(Debug, Clone, Default, PartialEq)]
+        pub struct RuleSettings {
+            $( pub $id: $id::Settings, )*
+        }
+
+        /// The `rules` block of a policy file.
+        #[derive(Debug, Clone, Default, Deserialize, JsonSchema)]
+        #[serde(deny_unknown_fields)]
+        pub struct RawRuleSettings {
+            $( #[serde(default)] pub $id: Option<$id::RawSettings>, )*
+        }
+
+        impl RuleSettings {
+            /// Applies a policy block; returns the ids of the rules it touched.
+            pub fn apply(&mut self, raw: &RawRuleSettings) -> Vec<&'static str> {
+                let mut touched = Vec::new();
+                $( if let Some(r) = &raw.$id { self.$id.apply(r); touched.push(stringify!($id)); } )*
+                touched
+            }
+
+            /// The severity of rule `id` (`Off` for an unknown id).
+            pub fn severity(&self, id: &str) -> Severity {
+                match id {
+                    $( stringify!($id) => self.$id.severity, )*
+                    _ => Severity::Off,
+                }
+            }
+        }
+
+        impl RawRuleSettings {
+            /// Problems with the values in this block, as (key path, message).
+            pub fn problems(&self) -> Vec<(String, String)> {
+                let mut out = Vec::new();
+                $( if let Some(r) = &self.$id {
+                    out.extend($id::problems(r).into_iter().map(|(k, m)| (format!("{}.{k}", stringify!($id)), m)));
+                } )*
+                out
+            }
+        }
+
+        /// Every rule, in report order.
+        pub const RULES: &[RuleInfo] = &[$( $id::RULE, )*];
+    };
+}
+
+all_settings!(
+    claim_support,
+    cv_test_gap,
+    interval_overlap,
+    holdout_budget,
+    fold_size,
+    completeness,
+    waiver_expiry,
+);
+
+/// A registered rule.
+#[derive(Debug, Clone, Copy)]
+pub struct RuleInfo {
+    /// Stable id used in policies, findings and `vetscore explain`.
+    pub id: &'static str,
+    /// Plain name for reports.
+    pub name: &'static str,
+    /// One paragraph: what the rule checks, how, and the published source of the method.
+    pub explanation: &'static str,
+    pub check: fn(&Subject, &Context, &RuleSettings) -> Outcome,
+}
+
+/// Looks up a rule by id.
+pub fn rule(id: &str) -> Option<&'static RuleInfo> {
+    RULES.iter().find(|r| r.id == id)
+}
+
+/// One model and the estimates computed from its manifest entry.
+#[derive(Debug, Clone)]
+pub struct Subject<'a> {
+    pub model: &'a Model,
+    pub cv: Option<Estimate>,
+    pub test: Option<Estimate>,
+}
+
+/// One scoring of a test split, as counted by the holdout budget.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct HoldoutUse {
+    pub model: String,
+    pub file: String,
+}
+
+/// A waiver as a rule sees it.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct WaiverView {
+    pub rule: String,
+    pub reason: String,
+    pub expires: jiff::civil::Date,
+    /// Where the waiver is in the policy, e.g. `waivers[2]`.
+    pub path: String,
+}
+
+/// What every rule may read besides its subject.
+#[derive(Debug, Clone)]
+pub struct Context {
+    pub confidence: f64,
+    pub interval_method: ProportionMethod,
+    /// Every scoring of each test split (by fingerprint) in the whole check.
+    pub holdout_uses: BTreeMap<String, Vec<HoldoutUse>>,
+    /// The date waivers are judged against.
+    pub today: jiff::civil::Date,
+    /// The waivers whose model pattern matches the model being checked.
+    pub waivers: Vec<WaiverView>,
+}
+
+/// A rule's conclusion before the engine adds model, severity, policy source and waivers.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Outcome {
+    pub status: Status,
+    pub sentence: String,
+    pub evidence: Vec<Evidence>,
+}
+
+impl Outcome {
+    pub fn new(status: Status, sentence: impl Into<String>, evidence: Vec<Evidence>) -> Self {
+        Outcome {
+            status,
+            sentence: sentence.into(),
+            evidence,
+        }
+    }
+
+    /// The rule lacks evidence it needs; `why` says which.
+    pub fn inconclusive(why: impl Into<String>) -> Self {
+        Outcome::new(Status::Inconclusive, why, Vec::new())
+    }
+
+    pub fn pass(sentence: &str, evidence: Vec<Evidence>) -> Self {
+        Outcome::new(Status::Pass, sentence, evidence)
+    }
+
+    pub fn fail(sentence: &str, evidence: Vec<Evidence>) -> Self {
+        Outcome::new(Status::Fail, sentence, evidence)
+    }
+
+    /// Pass when `ok`, fail otherwise, with a sentence for each case.
+    pub fn judge(ok: bool, pass: &str, fail: &str, evidence: Vec<Evidence>) -> Self {
+        if ok {
+            Outcome::new(Status::Pass, pass, evidence)
+        } else {
+            Outcome::new(Status::Fail, fail, evidence)
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use std::collections::BTreeSet;
+
+    #[test]
+    fn rule_ids_are_unique_snake_case_and_documented() {
+        let mut seen = BTreeSet::new();
+        for rule in RULES {
+            assert!(seen.insert(rule.id), "duplicate rule id {}", rule.id);
+            assert!(
+                rule.id.chars().all(|c| c.is_ascii_lowercase() || c == '_'),
+                "rule id {} is not snake_case",
+                rule.id
+            );
+            assert!(!rule.name.is_empty());
+            assert!(
+                rule.explanation.len() > 200,
+                "rule {} needs a real explanation",
+                rule.id
+            );
+        }
+    }
+
+    #[test]
+    fn every_rule_has_settings_and_a_default_severity() {
+        let defaults = RuleSettings::default();
+        for rule in RULES {
+            // An unknown id would report Off; every registered rule must be wired to its settings.
+            let raw: RawRuleSettings =
+                serde_json::from_value(serde_json::json!({ rule.id: { "severity": "warn" } }))
+                    .unwrap();
+            let mut settings = defaults.clone();
+            assert_eq!(settings.apply(&raw), vec![rule.id]);
+            assert_eq!(settings.severity(rule.id), Severity::Warn);
+        }
+    }
+}
