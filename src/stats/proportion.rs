@@ -1,0 +1,255 @@
+//! Confidence intervals and a test for binomial proportions (accuracy-like scores on n rows).
+//!
+//! Owns: [`Interval`], [`ProportionMethod`], [`proportion_interval`] (Wilson, Clopper–Pearson,
+//! Agresti–Coull, Jeffreys), [`newcombe_difference`] for p₁ − p₂, and
+//! [`two_proportion_z_test`].
+//!
+//! Boundary conventions (documented because references differ):
+//! - Wilson: L = 0 exactly at x = 0 and U = 1 exactly at x = n (the raw formula leaves ~1e-17).
+//! - Clopper–Pearson: L = 0 at x = 0, U = 1 at x = n; the other bound in closed form there.
+//! - Agresti–Coull: clipped to [0, 1], as `statsmodels.stats.proportion.proportion_confint`.
+//! - Jeffreys: **L = 0 at x = 0 and U = 1 at x = n**, the modification recommended by Brown, Cai &
+//!   DasGupta (2001, Stat. Sci. 16:101–133, §4.1.2). statsmodels 0.15 instead returns the raw Beta
+//!   quantiles there (e.g. 0/20 → L = 2.4e-5). A gate must not exclude a perfect score that the data
+//!   cannot rule out, so the modified form is used; the other bound is the plain Beta quantile.
+//!
+//! Must not: panic, or call a `statrs` inverse that can hang (Beta quantiles go through
+//! `special::beta_quantile`).
+
+use serde::{Deserialize, Serialize};
+
+use super::error::{Result, check_counts, check_unit_open};
+use super::normal_t::{normal_sf, z_two_sided};
+use super::special::{Tail, beta_quantile};
+
+/// A closed interval [lower, upper].
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct Interval {
+    pub lower: f64,
+    pub upper: f64,
+}
+
+impl Interval {
+    /// upper − lower.
+    pub fn width(&self) -> f64 {
+        self.upper - self.lower
+    }
+
+    /// Whether lower ≤ x ≤ upper (closed at both ends; NaN is never contained).
+    pub fn contains(&self, x: f64) -> bool {
+        self.lower <= x && x <= self.upper
+    }
+
+    /// Whether the two closed intervals share at least one point.
+    pub fn overlaps(&self, other: &Interval) -> bool {
+        self.lower <= other.upper && other.lower <= self.upper
+    }
+}
+
+/// How to build a two-sided interval for a binomial proportion.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, schemars::JsonSchema)]
+#[serde(rename_all = "snake_case")]
+pub enum ProportionMethod {
+    /// Wilson (1927) score interval.
+    Wilson,
+    /// Clopper & Pearson (1934) exact (Beta-quantile) interval.
+    ClopperPearson,
+    /// Agresti & Coull (1998) adjusted Wald interval.
+    AgrestiCoull,
+    /// Jeffreys equal-tailed Beta(x + ½, n − x + ½) interval (Brown, Cai & DasGupta 2001).
+    Jeffreys,
+}
+
+/// Wilson (1927) score limits, with exact 0 / 1 at the boundaries (see module docs).
+fn wilson(successes: u64, trials: u64, z: f64) -> Interval {
+    let n = trials as f64;
+    let p = successes as f64 / n;
+    let z2n = z * z / n;
+    let denom = 1.0 + z2n;
+    let centre = (p + 0.5 * z2n) / denom;
+    let half = z * (p * (1.0 - p) / n + 0.25 * z2n / n).sqrt() / denom;
+    Interval {
+        lower: if successes == 0 {
+            0.0
+        } else {
+            (centre - half).max(0.0)
+        },
+        upper: if successes == trials {
+            1.0
+        } else {
+            (centre + half).min(1.0)
+        },
+    }
+}
+
+/// Two-sided interval for a binomial proportion `successes / trials` at the given confidence.
+///
+/// Methods and sources:
+/// - `Wilson`: Wilson (1927) JASA 22:209–212, the score interval
+///   (p̂ + z²/2n ± z√(p̂(1−p̂)/n + z²/4n²)) / (1 + z²/n).
+/// - `ClopperPearson`: Clopper & Pearson (1934) Biometrika 26:404–413; L solves
+///   P(X ≥ x | L) = α/2, i.e. I_L(x, n−x+1) = α/2, and U solves P(X ≤ x | U) = α/2. At x = 0,
+///   U = 1 − (α/2)^(1/n); at x = n, L = (α/2)^(1/n) (computed with expm1/exp of ln(α/2)/n).
+/// - `AgrestiCoull`: Agresti & Coull (1998) Am. Stat. 52:119–126, in the statsmodels form
+///   ñ = n + z², p̃ = (x + z²/2)/ñ, p̃ ± z√(p̃(1−p̃)/ñ), clipped to [0, 1].
+/// - `Jeffreys`: Brown, Cai & DasGupta (2001), Beta(x+½, n−x+½) quantiles at α/2 and 1−α/2,
+///   with their boundary modification (module docs).
+///
+/// Beta quantiles come from bisection on this module's incomplete beta at every n, so bounds
+/// for n up to 1e7 and beyond are accurate and never hang.
+/// Errors: confidence not strictly in (0, 1); trials = 0; successes > trials.
+pub fn proportion_interval(
+    successes: u64,
+    trials: u64,
+    confidence: f64,
+    method: ProportionMethod,
+) -> Result<Interval> {
+    check_counts("successes", successes, "trials", trials)?;
+    check_unit_open("confidence", confidence)?;
+    let z = z_two_sided(confidence)?;
+    let half_alpha = 0.5 * (1.0 - confidence);
+    let x = successes as f64;
+    let n = trials as f64;
+    match method {
+        ProportionMethod::Wilson => Ok(wilson(successes, trials, z)),
+        ProportionMethod::ClopperPearson => {
+            let lower = if successes == 0 {
+                0.0
+            } else if successes == trials {
+                (half_alpha.ln() / n).exp()
+            } else {
+                beta_quantile(x, n - x + 1.0, Tail::Lower, half_alpha)?
+            };
+            let upper = if successes == trials {
+                1.0
+            } else if successes == 0 {
+                -(half_alpha.ln() / n).exp_m1()
+            } else {
+                beta_quantile(x + 1.0, n - x, Tail::Upper, half_alpha)?
+            };
+            Ok(Interval { lower, upper })
+        }
+        ProportionMethod::AgrestiCoull => {
+            let n_tilde = n + z * z;
+            let p_tilde = (x + 0.5 * z * z) / n_tilde;
+            let half = z * (p_tilde * (1.0 - p_tilde) / n_tilde).sqrt();
+            Ok(Interval {
+                lower: (p_tilde - half).max(0.0),
+                upper: (p_tilde + half).min(1.0),
+            })
+        }
+        ProportionMethod::Jeffreys => {
+            let (a, b) = (x + 0.5, n - x + 0.5);
+            let lower = if successes == 0 {
+                0.0
+            } else {
+                beta_quantile(a, b, Tail::Lower, half_alpha)?
+            };
+            let upper = if successes == trials {
+                1.0
+            } else {
+                beta_quantile(a, b, Tail::Upper, half_alpha)?
+            };
+            Ok(Interval { lower, upper })
+        }
+    }
+}
+
+/// Newcombe (1998b) hybrid score interval for p₁ − p₂ (his method 10), Stat. Med. 17:873–890.
+///
+/// With Wilson limits (l₁, u₁) for p̂₁ and (l₂, u₂) for p̂₂ at the same confidence:
+/// L = (p̂₁ − p̂₂) − √((p̂₁ − l₁)² + (u₂ − p̂₂)²), U = (p̂₁ − p̂₂) + √((u₁ − p̂₁)² + (p̂₂ − l₂)²).
+/// Matches `statsmodels.stats.proportion.confint_proportions_2indep(method='newcomb')`.
+/// Errors: as [`proportion_interval`] for either sample.
+pub fn newcombe_difference(
+    x1: u64,
+    n1: u64,
+    x2: u64,
+    n2: u64,
+    confidence: f64,
+) -> Result<Interval> {
+    let w1 = proportion_interval(x1, n1, confidence, ProportionMethod::Wilson)?;
+    let w2 = proportion_interval(x2, n2, confidence, ProportionMethod::Wilson)?;
+    let p1 = x1 as f64 / n1 as f64;
+    let p2 = x2 as f64 / n2 as f64;
+    let diff = p1 - p2;
+    Ok(Interval {
+        lower: diff - (p1 - w1.lower).hypot(w2.upper - p2),
+        upper: diff + (w1.upper - p1).hypot(p2 - w2.lower),
+    })
+}
+
+/// Result of a z-test: the statistic and its two-sided p-value.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct ZTest {
+    pub statistic: f64,
+    pub p_value: f64,
+}
+
+/// Two-sided two-proportion z-test of H₀: p₁ = p₂ with the pooled variance estimate.
+///
+/// z = (p̂₁ − p̂₂) / √(p̄(1 − p̄)(1/n₁ + 1/n₂)), p̄ = (x₁ + x₂)/(n₁ + n₂), p = 2·P(Z > |z|): the
+/// convention of `statsmodels.stats.proportion.proportions_ztest` (value 0, two-sided, pooled).
+/// When p̄ is 0 or 1 both samples are identical (all failures or all successes) and the
+/// statistic is 0/0; this function returns statistic 0 and p-value 1 there (statsmodels gives NaN).
+/// Errors: n₁ or n₂ = 0; x₁ > n₁ or x₂ > n₂.
+pub fn two_proportion_z_test(x1: u64, n1: u64, x2: u64, n2: u64) -> Result<ZTest> {
+    check_counts("x1", x1, "n1", n1)?;
+    check_counts("x2", x2, "n2", n2)?;
+    let (n1f, n2f) = (n1 as f64, n2 as f64);
+    let pooled = (x1 as f64 + x2 as f64) / (n1f + n2f);
+    let variance = pooled * (1.0 - pooled) * (1.0 / n1f + 1.0 / n2f);
+    if variance <= 0.0 {
+        return Ok(ZTest {
+            statistic: 0.0,
+            p_value: 1.0,
+        });
+    }
+    let statistic = (x1 as f64 / n1f - x2 as f64 / n2f) / variance.sqrt();
+    let p_value = (2.0 * normal_sf(statistic.abs())?).min(1.0);
+    Ok(ZTest { statistic, p_value })
+}
+
+#[cfg(test)]
+#[allow(clippy::unwrap_used)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn interval_helpers() {
+        let a = Interval {
+            lower: 0.2,
+            upper: 0.5,
+        };
+        let b = Interval {
+            lower: 0.5,
+            upper: 0.9,
+        };
+        let c = Interval {
+            lower: 0.6,
+            upper: 0.7,
+        };
+        assert!((a.width() - 0.3).abs() < 1e-15);
+        assert!(a.contains(0.2) && a.contains(0.5) && !a.contains(0.51));
+        assert!(!a.contains(f64::NAN));
+        assert!(a.overlaps(&b) && b.overlaps(&a));
+        assert!(!a.overlaps(&c) && !c.overlaps(&a));
+        assert!(b.overlaps(&c));
+    }
+
+    #[test]
+    fn method_names_serialize_in_snake_case() {
+        let json = serde_json::to_string(&ProportionMethod::ClopperPearson).unwrap();
+        assert_eq!(json, "\"clopper_pearson\"");
+        let back: ProportionMethod = serde_json::from_str("\"agresti_coull\"").unwrap();
+        assert_eq!(back, ProportionMethod::AgrestiCoull);
+    }
+
+    #[test]
+    fn identical_degenerate_samples_give_no_evidence() {
+        let t = two_proportion_z_test(0, 10, 0, 20).unwrap();
+        assert_eq!((t.statistic, t.p_value), (0.0, 1.0));
+        let t = two_proportion_z_test(10, 10, 20, 20).unwrap();
+        assert_eq!((t.statistic, t.p_value), (0.0, 1.0));
+    }
+}
