@@ -271,10 +271,8 @@ fn normal_matches_scipy() {
     assert_close(z_two_sided(0.95).unwrap(), 1.96, 0.0, 5e-3, "z 95%");
 }
 
-/// `scipy.stats.t.ppf(p, df)` for df = 0.5 … 1e9 and ∞, to 1e-9 relative (statrs below df 1000,
-/// Cornish–Fisher above), with a 1e-11 absolute floor: statrs loses relative precision for
-/// quantiles within ~1e-3 of 0 (p = 0.5005 is off by 2e-12 absolute at df = 120), which no interval
-/// notices.
+/// `scipy.stats.t.ppf(p, df)` for df = 0.5 … 1e9 and ∞ and p from 1e-300 to 1 − 1e-12, to 1e-9
+/// relative (incomplete-beta inversion up to df 1000, Cornish–Fisher above).
 #[test]
 fn t_quantiles_match_scipy() {
     for row in reference()["t"]["ppf"].as_array().unwrap() {

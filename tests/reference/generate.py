@@ -138,6 +138,9 @@ def t_values():
           for df in dfs for t in (-1.5, 0.3, 1.96, 2.5, 6.0)]
     extra_df = [0.5, 1.5, 12.34]
     ppf += [{"p": 0.975, "df": df, "value": f(stats.t.ppf(0.975, df))} for df in extra_df]
+    # Extreme and near-central probabilities (statrs' inverse hangs on the first one).
+    extreme = [(1e-100, 999), (1e-12, 3), (1 - 1e-12, 30), (0.5 + 1e-9, 10), (1e-300, 1000)]
+    ppf += [{"p": p, "df": df, "value": f(stats.t.ppf(p, df))} for p, df in extreme]
     return {"ppf": ppf, "sf": sf}
 
 
