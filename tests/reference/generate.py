@@ -135,11 +135,12 @@ def t_values():
     ppf = [{"p": p, "df": f(df), "value": f(stats.t.ppf(p, df))}
            for df in dfs for p in (0.5005, 0.9, 0.975, 0.995, 0.9995, 0.025)]
     sf = [{"t": t, "df": f(df), "value": f(stats.t.sf(t, df))}
-          for df in dfs for t in (-1.5, 0.3, 1.96, 2.5, 6.0)]
+          for df in dfs for t in (-1.5, 0.3, 1.96, 2.5, 5.0, 6.0, 10.0, 30.0)]
     extra_df = [0.5, 1.5, 12.34]
     ppf += [{"p": 0.975, "df": df, "value": f(stats.t.ppf(0.975, df))} for df in extra_df]
     # Extreme and near-central probabilities (statrs' inverse hangs on the first one).
-    extreme = [(1e-100, 999), (1e-12, 3), (1 - 1e-12, 30), (0.5 + 1e-9, 10), (1e-300, 1000)]
+    extreme = [(1e-100, 999), (1e-12, 3), (1 - 1e-12, 30), (0.5 + 1e-9, 10), (1e-300, 1000),
+               (1e-300, 1001), (1e-100, 5000), (1e-20, 1e4), (1e-300, 1e5), (1e-300, 1e6)]
     ppf += [{"p": p, "df": df, "value": f(stats.t.ppf(p, df))} for p, df in extreme]
     return {"ppf": ppf, "sf": sf}
 
