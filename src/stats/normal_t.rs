@@ -1,8 +1,8 @@
 //! Standard normal and Student-t tails and quantiles.
 //!
 //! Owns: [`z_two_sided`], [`normal_sf`], [`t_quantile`], [`t_sf`] and the crate-internal
-//! `normal_quantile` / `ln_normal_cdf`. Built on `statrs::function::erf` (never `Normal::inverse_cdf`,
-//! which panics outside [0, 1]) and on this module's own incomplete beta.
+//! `normal_quantile` / `ln_normal_cdf`. Built on `statrs::function::erf` (never
+//! `Normal::inverse_cdf`, which panics outside [0, 1]) and on this module's own incomplete beta.
 //!
 //! Must not: pass an unvalidated value to statrs, or call `StudentsT::inverse_cdf` at all (it is
 //! inaccurate from df ≈ 2e4, wrong by 0.6 at df ≈ 8e6, hangs from df ≈ 1.45e7, and also hangs for
@@ -21,7 +21,7 @@ pub(crate) fn normal_quantile(p: f64) -> Result<f64> {
     Ok(-SQRT_2 * erfc_inv(2.0 * p))
 }
 
-/// z such that P(|Z| ≤ z) = `confidence` for Z ~ N(0, 1), i.e. Φ⁻¹(1 − α/2) with α = 1 − confidence.
+/// z such that P(|Z| ≤ z) = `confidence` for Z ~ N(0, 1): Φ⁻¹(1 − α/2), α = 1 − confidence.
 ///
 /// Computed as √2·erfc⁻¹(α), which keeps full relative precision as the confidence nears 1
 /// (no 1 − tiny rounding). Errors: confidence not strictly between 0 and 1.
@@ -134,9 +134,10 @@ pub fn t_quantile(p: f64, df: f64) -> Result<f64> {
 /// Upper tail P(T > t) of Student's t with `df` degrees of freedom.
 ///
 /// Method by range:
-/// - df ≤ 1e7, or t⁸/(32ν²) > 1e-10: the identity P(T > t) = ½·I_{ν/(ν+t²)}(ν/2, ½) for t > 0 (Abramowitz & Stegun
-///   1964, 26.7.1 with 26.5.27) on this module's incomplete beta, with the complementary argument
-///   t²/(ν + t²) passed exactly (statrs' `StudentsT::sf` drifts to 4e-8 relative at df = 1e7).
+/// - df ≤ 1e7, or t⁸/(32ν²) > 1e-10: the identity P(T > t) = ½·I_{ν/(ν+t²)}(ν/2, ½) for t > 0
+///   (Abramowitz & Stegun 1964, 26.7.1 with 26.5.27) on this module's incomplete beta, with the
+///   complementary argument t²/(ν + t²) passed exactly (statrs' `StudentsT::sf` drifts to 4e-8
+///   relative at df = 1e7).
 /// - df > 1e7 and t⁸/(32ν²) ≤ 1e-10 (|t| ≤ 5.8 at df = 2e7, every representable tail at
 ///   df = 1e9): the normal tail plus its first-order correction in 1/ν,
 ///   Q(t) + φ(t)(t³ + t)/(4ν), obtained by inverting the first Cornish–Fisher term of A&S 26.7.5;
@@ -160,14 +161,14 @@ pub fn t_sf(t: f64, df: f64) -> Result<f64> {
     // t⁸/(32ν²) ≤ 1e-10 ⇔ t⁴ ≤ √(3.2e-9)·ν ≈ 5.6e-5·ν.
     let t2 = t * t;
     if df > 1e7 && t2 * t2 <= 5.6e-5 * df {
-        let correction = (-0.5 * t * t).exp() / (2.0 * PI).sqrt() * (t * t * t + t) / (4.0 * df);
+        let correction = (-0.5 * t2).exp() / (2.0 * PI).sqrt() * (t * t * t + t) / (4.0 * df);
         return Ok(normal_sf(t)? + correction);
     }
     if t == 0.0 {
         return Ok(0.5);
     }
     // u = t²/ν may overflow to ∞ for huge |t|; both forms below then give x = 0, y = 1.
-    let u = t * t / df;
+    let u = t2 / df;
     let x = 1.0 / (1.0 + u);
     let y = 1.0 / (1.0 + 1.0 / u);
     let (lower, _) = beta_tails(0.5 * df, 0.5, x, y)?;

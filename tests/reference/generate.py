@@ -1,8 +1,8 @@
 #!/usr/bin/env python3
 """Write tests/reference/stats_values.json: reference values for src/stats, from scipy/statsmodels.
 
-The Rust test tests/stats_reference.rs reads the JSON; CI does not run this script. Re-run it by hand
-after changing a grid, in a virtual environment with exactly these versions:
+The Rust test tests/stats_reference.rs reads the JSON; CI does not run this script. Re-run it by
+hand after changing a grid, in a virtual environment with exactly these versions:
 
     python3 -m venv /tmp/venv && /tmp/venv/bin/pip install \
         scipy==1.17.1 statsmodels==0.15.0 numpy==2.4.6
@@ -149,7 +149,8 @@ def normal_values():
     """scipy.stats.norm.isf(alpha / 2) and norm.sf."""
     z = [{"confidence": c, "value": f(stats.norm.isf((1 - c) / 2))}
          for c in (0.5, 0.8, 0.9, 0.95, 0.99, 0.999, 1 - 1e-9)]
-    sf = [{"z": x, "value": f(stats.norm.sf(x))} for x in (-3.0, -0.5, 0.0, 1.0, 2.65, 5.0, 10.0, 30.0)]
+    points = (-3.0, -0.5, 0.0, 1.0, 2.65, 5.0, 10.0, 30.0)
+    sf = [{"z": x, "value": f(stats.norm.sf(x))} for x in points]
     return {"z_two_sided": z, "sf": sf}
 
 
@@ -204,7 +205,8 @@ def cochran():
     for p, e, conf in ((0.5, 0.05, 0.95), (0.5, 0.03, 0.95), (0.5, 0.02, 0.95), (0.5, 0.01, 0.95),
                        (0.1, 0.02, 0.99), (0.8, 0.05, 0.9)):
         z = stats.norm.isf((1 - conf) / 2)
-        out.append({"p": p, "margin": e, "confidence": conf, "value": f(z * z * p * (1 - p) / e**2)})
+        value = z * z * p * (1 - p) / e**2
+        out.append({"p": p, "margin": e, "confidence": conf, "value": f(value)})
     return out
 
 
