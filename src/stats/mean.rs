@@ -22,7 +22,8 @@ pub struct MeanEstimate {
 ///
 /// Method: the one-sample t interval (Student 1908), s the sample standard deviation with
 /// divisor n − 1, computed in two passes (mean first, then squared deviations) to avoid the
-/// cancellation of the one-pass formula. Matches `scipy.stats.ttest_1samp(...).confidence_interval`.
+/// cancellation of the one-pass formula. Matches scipy's
+/// `ttest_1samp(...).confidence_interval`.
 /// The values are treated as independent; for cross-validation folds that understates the
 /// variance (Nadeau & Bengio 2003), which callers must account for separately.
 /// Errors: fewer than two values; any value NaN or infinite; confidence not in (0, 1).

@@ -4,8 +4,9 @@
 //! Owns: confidence intervals for proportions and their differences (`proportion`), normal and
 //! Student-t tails and quantiles (`normal_t`), the incomplete beta function and Beta quantiles
 //! (`special`), binomial tails and the best-of-N tail (`binomial`), sample-size bounds
-//! (`sample_size`), expected maxima of normals (`extremes`), the Tibshirani & Tibshirani selection
-//! bias (`selection`), the mean with a t interval (`mean`) and robust integer rounding (`rounding`).
+//! (`sample_size`), expected maxima of normals (`extremes`), the Tibshirani & Tibshirani
+//! selection bias (`selection`), the mean with a t interval (`mean`) and robust integer rounding
+//! (`rounding`).
 //!
 //! Every public function validates its arguments and returns [`Result`]; the `statrs` calls that
 //! panic on NaN or loop forever on huge shapes are only reached with checked arguments, and the

@@ -1,18 +1,18 @@
 //! Standard normal and Student-t tails and quantiles.
 //!
 //! Owns: [`z_two_sided`], [`normal_sf`], [`t_quantile`], [`t_sf`] and the crate-internal
-//! `normal_quantile` / `ln_normal_cdf`. Built on `statrs::function::erf` (never `Normal::inverse_cdf`,
-//! which panics outside [0, 1]) and on this module's own incomplete beta.
+//! `normal_quantile` / `ln_normal_cdf`. Built on `statrs::function::erf` (never
+//! `Normal::inverse_cdf`, which panics outside [0, 1]) and on this module's own incomplete beta.
 //!
-//! Must not: pass an unvalidated value to statrs, or call `StudentsT::inverse_cdf` with
-//! df > 1000 (it is inaccurate from df ≈ 2e4, wrong by 0.6 at df ≈ 8e6 and hangs from ≈ 1.45e7).
+//! Must not: pass an unvalidated value to statrs, or call `StudentsT::inverse_cdf` at all (it is
+//! inaccurate from df ≈ 2e4, wrong by 0.6 at df ≈ 8e6, hangs from df ≈ 1.45e7, and also hangs for
+//! extreme p at moderate df, e.g. p = 1e-100 with df = 999).
 
-use statrs::distribution::{ContinuousCDF, StudentsT};
 use statrs::function::erf::{erfc, erfc_inv};
 use std::f64::consts::{PI, SQRT_2};
 
 use super::error::{Result, StatsError, check_positive, check_unit_open};
-use super::special::beta_tails;
+use super::special::{Tail, beta_quantile, beta_tails};
 
 /// Φ⁻¹(p) for p in (0, 1), as −√2·erfc⁻¹(2p) (statrs' erfc_inv, rational approximations of
 /// Boost's erf_inv; ~1e-16 relative).
@@ -21,7 +21,7 @@ pub(crate) fn normal_quantile(p: f64) -> Result<f64> {
     Ok(-SQRT_2 * erfc_inv(2.0 * p))
 }
 
-/// z such that P(|Z| ≤ z) = `confidence` for Z ~ N(0, 1), i.e. Φ⁻¹(1 − α/2) with α = 1 − confidence.
+/// z such that P(|Z| ≤ z) = `confidence` for Z ~ N(0, 1): Φ⁻¹(1 − α/2), α = 1 − confidence.
 ///
 /// Computed as √2·erfc⁻¹(α), which keeps full relative precision as the confidence nears 1
 /// (no 1 − tiny rounding). Errors: confidence not strictly between 0 and 1.
@@ -61,36 +61,66 @@ fn check_df(df: f64) -> Result<f64> {
     }
 }
 
+/// Student-t quantile for finite df by inverting the incomplete beta (bisection), never through
+/// `statrs` `StudentsT::inverse_cdf`: that one loops forever for extreme p even at moderate df
+/// (found here: p = 1e-100 with df = 999), and loses relative precision for p near ½.
+///
+/// With q = min(p, 1 − p): P(|T| > t) = I_x(ν/2, ½) = 2q for x = ν/(ν + t²), and
+/// P(|T| ≤ t) = I_y(½, ν/2) = 1 − 2q for y = t²/(ν + t²) (A&S 26.7.1 with 26.5.27). Whichever of
+/// x, y is below ½ at the answer is solved for, so that t = √(ν(1 − x)/x) or √(νy/(1 − y)) keeps
+/// full precision both in the far tail and near the centre; the target is matched in its smaller
+/// tail (2q, or 1 − 2q formed exactly as |2p − 1|).
+fn t_quantile_by_bisection(p: f64, df: f64) -> Result<f64> {
+    if p == 0.5 {
+        return Ok(0.0);
+    }
+    let upper = p > 0.5;
+    let two_q = if upper { 2.0 * (1.0 - p) } else { 2.0 * p };
+    let centre_mass = (2.0 * p - 1.0).abs();
+    let half_df = 0.5 * df;
+    // P(|T| > √ν) = I_½(ν/2, ½): the split between the two forms.
+    let (split, _) = beta_tails(half_df, 0.5, 0.5, 0.5)?;
+    let t = if two_q < split {
+        let x = beta_quantile(half_df, 0.5, Tail::Lower, two_q)?;
+        (df * (1.0 - x) / x).sqrt()
+    } else {
+        // Match whichever of 2q and 1 − 2q is smaller, so neither rounds to 1.
+        let y = if two_q < 0.5 {
+            beta_quantile(0.5, half_df, Tail::Upper, two_q)?
+        } else {
+            beta_quantile(0.5, half_df, Tail::Lower, centre_mass)?
+        };
+        (df * y / (1.0 - y)).sqrt()
+    };
+    Ok(if upper { t } else { -t })
+}
+
 /// Quantile of Student's t with `df` degrees of freedom: the t with P(T ≤ t) = p.
 ///
 /// Method by range:
-/// - df ≤ 1000: `statrs` `StudentsT::inverse_cdf` (AS 109 inverse incomplete beta), measured
-///   against scipy to ~2e-12 relative at integer df.
-/// - 1000 < df < ∞: Cornish–Fisher expansion of t in z = Φ⁻¹(p), four terms, Abramowitz &
-///   Stegun (1964) 26.7.5; its truncation error is below 1e-13 relative from df = 1000 on.
+/// - df ≤ 1000, or z² > df/100 with z = Φ⁻¹(p): inversion of the incomplete-beta form of the t
+///   distribution by bisection (A&S 26.7.1 with 26.5.27), on this module's incomplete beta; see
+///   `t_quantile_by_bisection` for why not statrs' `StudentsT::inverse_cdf`.
+/// - otherwise (df > 1000 and z² ≤ df/100): Cornish–Fisher expansion of t in z, four terms,
+///   Abramowitz & Stegun (1964) 26.7.5. Its terms shrink like (z²/ν)^k, so the truncation error is
+///   below ~1e-13 relative in that range; far in the tail (p = 1e-300 at df 1001, z² ≈ 1.4ν) the
+///   series would be off by 10%, hence the bisection there, which only happens for df < 1.5e5.
 /// - df = +∞: the normal quantile.
 ///
+/// Extreme p with a tiny df can overflow to ±∞, which is returned as is.
 /// Errors: p not strictly between 0 and 1; df NaN or ≤ 0.
 pub fn t_quantile(p: f64, df: f64) -> Result<f64> {
     check_unit_open("p", p)?;
     check_df(df)?;
     if df <= 1000.0 {
-        let dist = StudentsT::new(0.0, 1.0, df).map_err(|_| StatsError::OutOfRange {
-            name: "df",
-            value: df,
-            expected: "greater than 0",
-        })?;
-        let t = dist.inverse_cdf(p);
-        if t.is_nan() {
-            return Err(StatsError::NoConvergence {
-                what: "Student t quantile",
-            });
-        }
-        return Ok(t);
+        return t_quantile_by_bisection(p, df);
     }
     let z = normal_quantile(p)?;
     if df == f64::INFINITY {
         return Ok(z);
+    }
+    if z * z > 0.01 * df {
+        return t_quantile_by_bisection(p, df);
     }
     let z2 = z * z;
     // Coefficients g1..g4 of A&S 26.7.5, as polynomials in z (Horner in z²).
@@ -104,14 +134,16 @@ pub fn t_quantile(p: f64, df: f64) -> Result<f64> {
 /// Upper tail P(T > t) of Student's t with `df` degrees of freedom.
 ///
 /// Method by range:
-/// - df ≤ 1e7: the identity P(T > t) = ½·I_{ν/(ν+t²)}(ν/2, ½) for t > 0 (Abramowitz & Stegun
-///   1964, 26.7.1 with 26.5.27) on this module's incomplete beta, with the complementary argument
-///   t²/(ν + t²) passed exactly (statrs' `StudentsT::sf` drifts to 4e-8 relative at df = 1e7).
-/// - df > 1e7: the normal tail plus its first-order correction in 1/ν, Q(t) + φ(t)(t³ + t)/(4ν),
-///   obtained by inverting the first Cornish–Fisher term of A&S 26.7.5. The continued fraction
-///   converges too slowly there (shapes ≥ 5e6 with x within ~1/ν of its switch point), and the
-///   plain normal tail is off by ~(t² + 1)/(4ν) relative. The neglected terms are of relative
-///   order t⁸/(32ν²): below 3e-8 for |t| ≤ 10.
+/// - df ≤ 1e7, or t⁸/(32ν²) > 1e-10: the identity P(T > t) = ½·I_{ν/(ν+t²)}(ν/2, ½) for t > 0
+///   (Abramowitz & Stegun 1964, 26.7.1 with 26.5.27) on this module's incomplete beta, with the
+///   complementary argument t²/(ν + t²) passed exactly (statrs' `StudentsT::sf` drifts to 4e-8
+///   relative at df = 1e7).
+/// - df > 1e7 and t⁸/(32ν²) ≤ 1e-10 (|t| ≤ 5.8 at df = 2e7, every representable tail at
+///   df = 1e9): the normal tail plus its first-order correction in 1/ν,
+///   Q(t) + φ(t)(t³ + t)/(4ν), obtained by inverting the first Cornish–Fisher term of A&S 26.7.5;
+///   t⁸/(32ν²) is the relative order of the neglected terms. The continued fraction is avoided
+///   there because at shapes ≥ 5e7 it drifts to a few 1e-9 relative (measured against scipy at
+///   df = 1e9), while the plain normal tail would be off by ~(t² + 1)/(4ν) relative.
 /// - df = +∞: the normal tail.
 ///
 /// Errors: t NaN; df NaN or ≤ 0.
@@ -123,19 +155,20 @@ pub fn t_sf(t: f64, df: f64) -> Result<f64> {
         });
     }
     check_df(df)?;
-    if df > 1e7 {
-        let correction = if t.is_finite() {
-            (-0.5 * t * t).exp() / (2.0 * PI).sqrt() * (t * t * t + t) / (4.0 * df)
-        } else {
-            0.0
-        };
+    if df == f64::INFINITY {
+        return normal_sf(t);
+    }
+    // t⁸/(32ν²) ≤ 1e-10 ⇔ t⁴ ≤ √(3.2e-9)·ν ≈ 5.6e-5·ν.
+    let t2 = t * t;
+    if df > 1e7 && t2 * t2 <= 5.6e-5 * df {
+        let correction = (-0.5 * t2).exp() / (2.0 * PI).sqrt() * (t * t * t + t) / (4.0 * df);
         return Ok(normal_sf(t)? + correction);
     }
     if t == 0.0 {
         return Ok(0.5);
     }
     // u = t²/ν may overflow to ∞ for huge |t|; both forms below then give x = 0, y = 1.
-    let u = t * t / df;
+    let u = t2 / df;
     let x = 1.0 / (1.0 + u);
     let y = 1.0 / (1.0 + 1.0 / u);
     let (lower, _) = beta_tails(0.5 * df, 0.5, x, y)?;

@@ -9,9 +9,9 @@
 //! - Clopper–Pearson: L = 0 at x = 0, U = 1 at x = n; the other bound in closed form there.
 //! - Agresti–Coull: clipped to [0, 1], as `statsmodels.stats.proportion.proportion_confint`.
 //! - Jeffreys: **L = 0 at x = 0 and U = 1 at x = n**, the modification recommended by Brown, Cai &
-//!   DasGupta (2001, Stat. Sci. 16:101–133, §4.1.2). statsmodels 0.15 instead returns the raw Beta
-//!   quantiles there (e.g. 0/20 → L = 2.4e-5). A gate must not exclude a perfect score that the data
-//!   cannot rule out, so the modified form is used; the other bound is the plain Beta quantile.
+//!   DasGupta (2001, Stat. Sci. 16:101–133). statsmodels 0.15 instead returns the raw Beta
+//!   quantiles there (e.g. 0/20 → L = 2.4e-5). A gate must not exclude a perfect score that the
+//!   data cannot rule out, so the modified form is used; the other bound is the plain quantile.
 //!
 //! Must not: panic, or call a `statrs` inverse that can hang (Beta quantiles go through
 //! `special::beta_quantile`).

@@ -11,8 +11,8 @@
 
 use super::error::{Result, StatsError, check_nonzero, check_unit_closed};
 
-/// ⌈v⌉ that treats v within 1e-9 relative of an integer as that integer, so rounding noise in a computed value does not add one. NaN and v ≤ 0 give 0; values
-/// beyond `u64::MAX` saturate. Nine significant digits is far more than any sample-size input
+/// ⌈v⌉ that treats v within 1e-9 relative of an integer as that integer, so rounding noise in a
+/// computed value does not add one. NaN and v ≤ 0 give 0; values beyond `u64::MAX` saturate. Nine significant digits is far more than any sample-size input
 /// (a margin such as 0.02) carries, and far less than the 15–16 digits of an f64.
 pub(crate) fn robust_ceil(v: f64) -> u64 {
     if v.is_nan() || v <= 0.0 {
