@@ -34,6 +34,8 @@ pub struct Estimate {
     pub rows: u64,
     /// Correct rows, for proportion metrics.
     pub correct: Option<u64>,
+    /// Standard error of the estimate: √(p(1−p)/n) for a proportion, s/√k over k folds.
+    pub std_error: Option<f64>,
 }
 
 /// Settings shared by every estimate.
@@ -69,6 +71,7 @@ fn pooled_proportion(cv: &CrossValidation, settings: IntervalSettings) -> Estima
         },
         rows,
         correct: Some(count),
+        std_error: Some((value * (1.0 - value) / rows as f64).sqrt()),
     }
 }
 
@@ -84,6 +87,7 @@ fn fold_mean(cv: &CrossValidation, confidence: f64) -> Estimate {
             },
             rows,
             correct: None,
+            std_error: Some(m.std_error),
         },
         Err(_) => Estimate {
             value: scores.iter().sum::<f64>() / scores.len().max(1) as f64,
@@ -91,6 +95,7 @@ fn fold_mean(cv: &CrossValidation, confidence: f64) -> Estimate {
             basis: IntervalBasis::Unavailable,
             rows,
             correct: None,
+            std_error: None,
         },
     }
 }
@@ -120,6 +125,10 @@ pub fn evaluation_estimate(evaluation: &Evaluation, settings: IntervalSettings) 
             },
             rows: evaluation.rows,
             correct: Some(correct),
+            std_error: Some(
+                (correct as f64 * (evaluation.rows - correct) as f64).sqrt()
+                    / (evaluation.rows as f64).powf(1.5),
+            ),
         },
         None => Estimate {
             value: evaluation.score,
@@ -127,6 +136,7 @@ pub fn evaluation_estimate(evaluation: &Evaluation, settings: IntervalSettings) 
             basis: IntervalBasis::Unavailable,
             rows: evaluation.rows,
             correct: None,
+            std_error: None,
         },
     }
 }

@@ -80,10 +80,12 @@ pub fn read_text(path: &Path) -> Result<String, Diagnostic> {
     })
 }
 
-fn io_reason(error: &std::io::Error) -> String {
+/// A short reason for an I/O error, for messages.
+pub fn io_reason(error: &std::io::Error) -> String {
     match error.kind() {
         std::io::ErrorKind::NotFound => "no such file".to_owned(),
         std::io::ErrorKind::PermissionDenied => "permission denied".to_owned(),
+        std::io::ErrorKind::IsADirectory => "it is a directory".to_owned(),
         _ => error.to_string(),
     }
 }

@@ -21,7 +21,7 @@ fn case_args(dir: &std::path::Path, name: &str) -> Vec<String> {
     let mut files: Vec<String> = std::fs::read_dir(dir)
         .unwrap()
         .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
-        .filter(|f| f != "expected.txt" && f != "policy.yaml")
+        .filter(|f| (f.ends_with(".yaml") || f.ends_with(".json")) && f != "policy.yaml")
         .map(|f| format!("tests/bad-input/{name}/{f}"))
         .collect();
     files.sort();

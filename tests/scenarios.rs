@@ -1,4 +1,5 @@
-//! Runs every scenario under `fixtures/scenarios/`: each folder holds one or more manifests, an
+//! Runs every scenario under `fixtures/scenarios/`: each folder holds one or more manifests
+//! (`.yaml`/`.json`; other files, such as trials, are read through them), an
 //! optional `policy.yaml` and an `expect.yaml` naming the exit code, the findings that must
 //! appear with their status, and reference numbers with their published source. Together the
 //! scenarios must make every rule both fail and pass at least once.
@@ -63,7 +64,8 @@ fn run_scenario(dir: &Path, seen: &mut BTreeSet<(String, String)>) {
         .map(|e| e.unwrap().path())
         .filter(|p| {
             let file = p.file_name().unwrap().to_string_lossy();
-            file != "expect.yaml" && file != "policy.yaml"
+            let manifest = file.ends_with(".yaml") || file.ends_with(".json");
+            manifest && file != "expect.yaml" && file != "policy.yaml"
         })
         .map(|p| p.to_string_lossy().into_owned())
         .collect();

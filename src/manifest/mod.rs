@@ -5,6 +5,7 @@
 //! here evaluates a rule.
 
 pub mod raw;
+pub mod trials;
 mod validate;
 
 use std::collections::BTreeMap;
@@ -167,8 +168,21 @@ pub struct ClassCounts {
 #[derive(Debug, Clone, PartialEq)]
 pub struct Search {
     pub method: SearchMethod,
+    /// Configurations evaluated; from the trials when they are listed.
     pub configurations: Option<u64>,
+    /// Independent configurations the search amounts to, when the manifest states it.
+    pub effective_configurations: Option<f64>,
     pub cv: CrossValidation,
+    /// What every trial's fold scores show, when they are given.
+    pub trials: Option<trials::TrialSummary>,
+}
+
+impl Search {
+    /// The number of configurations the selection-optimism estimates assume.
+    pub fn effective(&self) -> Option<f64> {
+        self.effective_configurations
+            .or(self.configurations.map(|c| c as f64))
+    }
 }
 
 #[derive(Debug, Clone, PartialEq)]

@@ -11,6 +11,7 @@ use schemars::JsonSchema;
 use serde::Deserialize;
 use serde_saphyr::Spanned;
 
+use super::trials::RawTrial;
 use super::{Basis, CvScheme, Metric, SearchMethod, Task};
 
 /// A results manifest: one training run, one or more models.
@@ -106,6 +107,17 @@ pub struct RawSearch {
     /// Number of configurations evaluated with cross-validation.
     #[serde(default)]
     pub configurations: Option<u64>,
+    /// How many independent configurations the search amounts to. Configurations that differ
+    /// little are correlated and count less; defaults to `configurations`.
+    #[serde(default)]
+    pub effective_configurations: Option<f64>,
+    /// Every configuration tried, with its per-fold scores (or use `trials_file`).
+    #[serde(default)]
+    #[schemars(with = "Option<Vec<RawTrial>>")]
+    pub trials: Option<Vec<Spanned<RawTrial>>>,
+    /// A CSV or JSON Lines file of trials, relative to this manifest.
+    #[serde(default)]
+    pub trials_file: Option<String>,
     /// The cross-validation of the selected configuration.
     #[schemars(with = "RawCv")]
     pub cv: Spanned<RawCv>,

@@ -2,11 +2,14 @@
 
 use std::collections::BTreeMap;
 
+use std::path::Path;
+
 use serde_saphyr::Spanned;
 
 use super::raw::{
     RawClassCounts, RawCv, RawData, RawEvaluation, RawFold, RawManifest, RawModel, RawSearch,
 };
+use super::trials::{self, RawTrial, TrialReader, TrialSummary};
 use super::{
     Claim, ClassCounts, CrossValidation, CvScheme, Data, Evaluation, FORMAT_VERSION, Fold, Metric,
     Model, Origin, Search,
@@ -229,11 +232,93 @@ impl Validator<'_> {
             );
         }
         let cv = self.cv(&format!("{path}.cv"), metric, data, raw.cv)?;
+        let trials = match (raw.trials, raw.trials_file) {
+            (Some(_), Some(_)) => {
+                self.problem(
+                    place,
+                    &format!("{path}.trials_file"),
+                    "give trials inline or in a file, not both",
+                );
+                None
+            }
+            (Some(inline), None) => self.inline_trials(path, metric, cv.folds.len(), inline),
+            (None, Some(file)) => {
+                let resolved = Path::new(self.file)
+                    .parent()
+                    .unwrap_or(Path::new("."))
+                    .join(&file);
+                match trials::read_file(
+                    &resolved,
+                    &format!("{path}.trials_file in {}", self.file),
+                    metric,
+                    cv.folds.len(),
+                ) {
+                    Ok(summary) => Some(summary),
+                    Err(problems) => {
+                        self.out.extend(problems);
+                        None
+                    }
+                }
+            }
+            (None, None) => None,
+        };
+        let configurations = match (raw.configurations, &trials) {
+            (Some(stated), Some(t)) if stated != t.trials => {
+                self.problem(
+                    place,
+                    &format!("{path}.configurations"),
+                    format!(
+                        "{stated} configurations stated, but {} trials are listed",
+                        t.trials
+                    ),
+                );
+                None
+            }
+            (stated, t) => stated.filter(|&c| c > 0).or(t.as_ref().map(|t| t.trials)),
+        };
+        if let Some(e) = raw.effective_configurations {
+            let most = configurations.map_or(f64::INFINITY, |c| c as f64);
+            if !(e.is_finite() && e >= 1.0 && e <= most) {
+                self.problem(
+                    place,
+                    &format!("{path}.effective_configurations"),
+                    format!("expected a number between 1 and the {most} configurations, found {e}"),
+                );
+            }
+        }
         Some(Search {
             method: raw.method,
-            configurations: raw.configurations.filter(|&c| c > 0),
+            configurations,
+            effective_configurations: raw.effective_configurations,
             cv,
+            trials,
         })
+    }
+
+    fn inline_trials(
+        &mut self,
+        path: &str,
+        metric: Metric,
+        folds: usize,
+        inline: Vec<Spanned<RawTrial>>,
+    ) -> Option<TrialSummary> {
+        let mut reader = TrialReader::new(self.file, metric, folds);
+        for (i, t) in inline.into_iter().enumerate() {
+            let place = Place::of(&t.referenced);
+            reader.push(
+                place,
+                &format!("{path}.trials[{i}]"),
+                &trials::id_text(&t.value.id),
+                &t.value.fold_scores,
+            );
+        }
+        match reader.finish() {
+            Ok(summary) => Some(summary),
+            Err(problems) => {
+                self.out.extend(problems);
+                None
+            }
+        }
     }
 
     fn cv(

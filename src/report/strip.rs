@@ -8,14 +8,16 @@ use crate::manifest::Metric;
 /// Width of the drawn axis in characters.
 const WIDTH: usize = 41;
 
-/// Draws the strip; empty when there is nothing with an interval to draw.
+/// Draws the strip; empty when there is nothing with an interval to draw. `adjusted` is the CV
+/// interval after the selection-optimism adjustment, when that rule produced one.
 pub fn draw(
     metric: Metric,
     cv: Option<&EstimateView>,
+    adjusted: Option<&EstimateView>,
     test: Option<&EstimateView>,
     claim: f64,
 ) -> Vec<String> {
-    let rows: Vec<(&str, &EstimateView)> = [("CV", cv), ("test", test)]
+    let rows: Vec<(&str, &EstimateView)> = [("CV", cv), ("CV adj", adjusted), ("test", test)]
         .into_iter()
         .filter_map(|(label, e)| e.map(|e| (label, e)))
         .collect();
@@ -78,4 +80,37 @@ pub fn draw(
         format::score(claim)
     ));
     lines
+}
+
+/// Width of the longest histogram bar in characters.
+const BAR: usize = 30;
+
+/// A text histogram of the trials' mean CV scores, marking the bin of the best one (the
+/// configuration a search over these trials selects).
+pub fn histogram(trials: &crate::manifest::trials::TrialSummary) -> Vec<String> {
+    let most = trials
+        .histogram
+        .iter()
+        .map(|b| b.count)
+        .max()
+        .unwrap_or(0)
+        .max(1);
+    let best = trials.bias.naive_best;
+    let last = trials.histogram.len().saturating_sub(1);
+    trials
+        .histogram
+        .iter()
+        .enumerate()
+        .map(|(i, b)| {
+            let bar = "#".repeat(((b.count * BAR as u64).div_ceil(most)) as usize);
+            let selected = best >= b.lower && (best < b.upper || (i == last && best <= b.upper));
+            format!(
+                "{} to {} {:>7} {bar}{}",
+                format::score(b.lower),
+                format::score(b.upper),
+                b.count,
+                if selected { "  <- best (selected)" } else { "" }
+            )
+        })
+        .collect()
 }

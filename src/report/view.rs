@@ -70,6 +70,8 @@ pub struct ModelView {
     pub findings: Vec<FindingView>,
     /// The interval strip: monospace lines showing the CV and test intervals and the claim.
     pub strip: Vec<String>,
+    /// A text histogram of every trial's mean CV score, when the trials are listed.
+    pub trials_histogram: Vec<String>,
 }
 
 #[derive(Debug, Clone, Serialize, JsonSchema)]
@@ -184,15 +186,44 @@ fn model_view(m: &ModelAssessment) -> ModelView {
         strip: super::strip::draw(
             m.model.metric,
             cv.as_ref(),
+            adjusted_cv(m).as_ref(),
             test.as_ref(),
             m.model.claim.value,
         ),
+        trials_histogram: m
+            .model
+            .search
+            .as_ref()
+            .and_then(|s| s.trials.as_ref())
+            .map(super::strip::histogram)
+            .unwrap_or_default(),
         cv,
         test,
         verdict: m.verdict,
         verdict_label: m.verdict.label(),
         findings: m.findings.iter().map(finding_view).collect(),
     }
+}
+
+/// The CV estimate after the selection-optimism adjustment, from that rule's evidence.
+fn adjusted_cv(m: &ModelAssessment) -> Option<EstimateView> {
+    let finding = m.findings.iter().find(|f| f.rule == "selection_optimism")?;
+    let value = match finding.evidence("adjusted")? {
+        EvidenceValue::Number { value, .. } => *value,
+        _ => return None,
+    };
+    let EvidenceValue::Interval { lower, upper, .. } = finding.evidence("adjusted_interval")?
+    else {
+        return None;
+    };
+    Some(EstimateView {
+        value,
+        lower: Some(*lower),
+        upper: Some(*upper),
+        rows: 0,
+        correct: None,
+        basis: IntervalBasis::Unavailable,
+    })
 }
 
 fn finding_view(f: &Finding) -> FindingView {

@@ -20,8 +20,9 @@ score (for accuracy a binomial interval on the count of correct rows, by the pol
 `interval_method`: Wilson 1927 by default, or Clopper–Pearson 1934, Agresti–Coull 1998, \
 Jeffreys as in Brown, Cai & DasGupta 2001). A claim above the interval overstates the model; a \
 claim below it understates it and is also flagged, because the stated number does not describe \
-the evidence. A claim with basis `cv` must lie inside the cross-validation interval; it rests on \
-the best of many configurations, so the policy may forbid it with `allow_cv_claims: false`.",
+the evidence. A claim with basis `cv` must lie inside the cross-validation interval; because it \
+rests on the best of many configurations, the selection-optimism rule also judges it after \
+adjusting for the search, and the policy may forbid such claims with `allow_cv_claims: false`.",
     check,
 };
 
@@ -90,8 +91,9 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
             evidence,
         ),
         (Basis::Cv, true, _) => Outcome::pass(
-            "The claimed {claim} is a cross-validation claim and lies inside the CV interval \
-             {interval}; a best-of-many CV score is optimistic, so prefer a test-split claim.",
+            "The claimed {claim} is a cross-validation claim inside the CV interval {interval}; \
+             whether it survives the optimism of the search is judged by the selection-optimism \
+             rule.",
             evidence,
         ),
         (_, false, true) => Outcome::fail(

@@ -22,6 +22,7 @@ pub mod cv_test_gap;
 pub mod fold_size;
 pub mod holdout_budget;
 pub mod interval_overlap;
+pub mod selection_optimism;
 pub mod waiver_expiry;
 
 /// Severity as written in a policy file.
@@ -145,6 +146,7 @@ all_settings!(
     claim_support,
     cv_test_gap,
     interval_overlap,
+    selection_optimism,
     holdout_budget,
     fold_size,
     completeness,

@@ -4,7 +4,7 @@
 //! Owns: confidence intervals for proportions and their differences (`proportion`), normal and
 //! Student-t tails and quantiles (`normal_t`), the incomplete beta function and Beta quantiles
 //! (`special`), binomial tails and the best-of-N tail (`binomial`), sample-size bounds
-//! (`sample_size`), expected maxima of normals (`extremes`), the Tibshirani & Tibshirani
+//! (`sample_size`), expected maxima of normals (`extremes`), a streaming histogram (`histogram`), the Tibshirani & Tibshirani
 //! selection bias (`selection`), the mean with a t interval (`mean`) and robust integer rounding
 //! (`rounding`).
 //!
@@ -18,6 +18,7 @@
 mod binomial;
 mod error;
 mod extremes;
+mod histogram;
 mod mean;
 mod normal_t;
 mod proportion;
@@ -29,6 +30,7 @@ mod special;
 pub use binomial::{best_of_n_tail, binomial_sf_ge};
 pub use error::{Result, StatsError};
 pub use extremes::{blom_expected_max, expected_max_normal};
+pub use histogram::{Bin, Histogram};
 pub use mean::{MeanEstimate, mean_t_interval};
 pub use normal_t::{normal_sf, t_quantile, t_sf, z_two_sided};
 pub use proportion::{

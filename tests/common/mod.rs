@@ -89,6 +89,7 @@ pub struct ModelReport {
     pub verdict_label: String,
     pub findings: Vec<FindingReport>,
     pub strip: Vec<String>,
+    pub trials_histogram: Vec<String>,
 }
 
 #[derive(Debug, Deserialize)]

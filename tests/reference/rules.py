@@ -66,3 +66,42 @@ wilson(800, 1000, 0.95)
 wilson(1086, 1200, 0.95)
 # regression-fold-mean: RMSE per fold.
 t_interval([3.1, 2.9, 3.4, 3.0, 3.1], 0.95)
+
+
+def expected_max(n):
+    # E[max of n iid N(0,1)] = integral of x * n * phi(x) * Phi(x)^(n-1), with Phi^(n-1) in log space.
+    from scipy import integrate
+
+    f = lambda x: x * n * stats.norm.pdf(x) * math.exp((n - 1) * stats.norm.logcdf(x))
+    mode = stats.norm.ppf(1 - 1 / n) if n > 1 else 0.0
+    value, _ = integrate.quad(f, mode - 12, mode + 12, points=[mode], limit=200)
+    print(f"E[max of {n}] (scipy integrate.quad) = {value:.10f}")
+    return value
+
+
+def best_of_n(n_configs, n, p, k):
+    # P(best of N >= k/n) = 1 - F(k-1; n, p)^N, evaluated as -expm1(N * log1p(-sf(k-1))).
+    sf = stats.binom.sf(k - 1, n, p)
+    value = -math.expm1(n_configs * math.log1p(-sf))
+    print(f"best-of-{n_configs} tail n={n} p={p:.10f} k={k}: {value:.12g} (binom.sf(k-1) = {sf:.10g})")
+
+
+def wilson_upper_minus(x, n, conf, shift):
+    lo, hi = proportion_confint(x, n, alpha=1 - conf, method="wilson")
+    print(f"Wilson({x}/{n}) shifted by -{shift:.10f}: [{lo - shift:.10f}, {hi - shift:.10f}]")
+
+
+# selection-luck: 900 configurations, CV 16/20 (5 folds of 4 rows), test 1220/1980.
+e900 = expected_max(900)
+se = math.sqrt(0.8 * 0.2 / 20)
+wilson_upper_minus(16, 20, 0.95, e900 * se)
+best_of_n(900, 20, 1220 / 1980, 16)
+# selection-small-search: 25 configurations, CV 344/400, test 850/1000.
+e25 = expected_max(25)
+se = math.sqrt(0.86 * 0.14 / 400)
+print(f"optimism 25 configs: {e25 * se:.10f}")
+wilson_upper_minus(344, 400, 0.95, e25 * se)
+best_of_n(25, 400, 0.85, 344)
+wilson(850, 1000, 0.95)
+# selection-bias-correction: Tibshirani & Tibshirani on 4 configurations x 5 folds of 100 rows.
+wilson_upper_minus(403, 500, 0.95, 0.03)
