@@ -26,21 +26,21 @@ with open(f"{work}/trials.csv", "w") as f:
         f.write(f"t{i},{rng.randint(2, 12)},{rng.random():.4f}," + ",".join(map(str, folds)) + "\n")
 PY
 # The selected configuration is the trial with the best mean; the manifest states its folds.
-best=$("$PYTHON" benches/trials_python.py "$work/trials.csv" 10 10000 0.80)
+best=$("$PYTHON" benches/trials_python.py "$work/trials.csv" 10 100000 0.80)
 "$PYTHON" - "$work" "$best" <<'PY'
 import csv, json, sys
 work, best = sys.argv[1], json.loads(sys.argv[2])
 rows = list(csv.DictReader(open(f"{work}/trials.csv")))
 means = [sum(float(r[f"fold_{k}"]) for k in range(1, 11)) / 10 for r in rows]
 top = rows[max(range(len(rows)), key=lambda i: means[i])]
-folds = "\n".join(f"          - {{rows: 1000, score: {float(top[f'fold_{k}'])}}}" for k in range(1, 11))
+folds = "\n".join(f"          - {{rows: 10000, score: {float(top[f'fold_{k}'])}}}" for k in range(1, 11))
 open(f"{work}/manifest.yaml", "w").write(f"""format_version: 1
 models:
   - name: bench
     task: binary
     metric: accuracy
     seed: 1
-    data: {{train_rows: 10000, test_rows: 10000, test_fingerprint: "fp-bench"}}
+    data: {{train_rows: 100000, test_rows: 10000, test_fingerprint: "fp-bench"}}
     search:
       method: random
       trials_file: trials.csv
@@ -57,7 +57,7 @@ PY
 measure() { /usr/bin/time -f "%e %M" "$@" 2> "$work/time" > "$work/out"; tail -n 1 "$work/time"; }
 read -r rs_s rs_kb < <(measure target/release/vetscore check --today 2026-12-01 --json - "$work/manifest.yaml" || true)
 cp "$work/out" "$work/vetscore.json"
-read -r py_s py_kb < <(measure "$PYTHON" benches/trials_python.py "$work/trials.csv" 10 10000 0.80)
+read -r py_s py_kb < <(measure "$PYTHON" benches/trials_python.py "$work/trials.csv" 10 100000 0.80)
 cp "$work/out" "$work/python.json"
 
 "$PYTHON" - "$work" <<'PY'
