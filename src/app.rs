@@ -8,7 +8,7 @@ use std::path::{Path, PathBuf};
 
 use anyhow::{Context as _, Result, bail};
 
-use crate::cli::{CheckArgs, Cli, Command, SchemaFormat};
+use crate::cli::{CheckArgs, Cli, Command, LedgerAction, SchemaFormat};
 use crate::diag::Diagnostic;
 use crate::finding::Verdict;
 use crate::manifest::{self, Model};
@@ -54,7 +54,63 @@ pub fn run(cli: Cli) -> Result<Exit> {
             println!("{}", serde_json::to_string_pretty(&schema)?);
             Ok(Exit::Supported)
         }
+        Command::Ledger { action } => ledger(action),
     }
+}
+
+fn report_problems(problems: &[Diagnostic], what: &str) -> Exit {
+    for p in problems {
+        eprintln!("error: {p}");
+    }
+    eprintln!(
+        "vetscore: {} input problem{} found; {what}",
+        problems.len(),
+        if problems.len() == 1 { "" } else { "s" }
+    );
+    Exit::InvalidInput
+}
+
+fn ledger(action: LedgerAction) -> Result<Exit> {
+    match action {
+        LedgerAction::Verify { ledger } => match crate::ledger::store::read(&ledger, false) {
+            Ok(entries) => {
+                println!(
+                    "{}: {} entries, hash chain intact",
+                    ledger.display(),
+                    entries.len()
+                );
+                Ok(Exit::Supported)
+            }
+            Err(d) => Ok(report_problems(&[d], "the ledger cannot be trusted")),
+        },
+        LedgerAction::Append { ledger, manifests } => {
+            let mut problems = Vec::new();
+            let models = load_models(&manifests, &mut problems);
+            if !problems.is_empty() {
+                return Ok(report_problems(&problems, "nothing was recorded"));
+            }
+            match crate::ledger::store::append(&ledger, &models)? {
+                Ok(added) => {
+                    println!("{}: {added} new entries recorded", ledger.display());
+                    Ok(Exit::Supported)
+                }
+                Err(d) => Ok(report_problems(&[d], "nothing was recorded")),
+            }
+        }
+    }
+}
+
+/// Loads every manifest the patterns name, collecting problems (including duplicate names).
+fn load_models(patterns: &[String], problems: &mut Vec<Diagnostic>) -> Vec<Model> {
+    let mut models: Vec<Model> = Vec::new();
+    for path in expand(patterns, problems) {
+        match manifest::load(&path) {
+            Ok(found) => models.extend(found),
+            Err(d) => problems.extend(d),
+        }
+    }
+    problems.extend(duplicate_names(&models));
+    models
 }
 
 fn explain(rule: Option<&str>) -> Result<Exit> {
@@ -106,27 +162,18 @@ fn check(args: &CheckArgs) -> Result<Exit> {
         Some(path) => Policy::load(path).map_err(|d| problems.extend(d)).ok(),
         None => Some(Policy::defaults()),
     };
-    let mut models: Vec<Model> = Vec::new();
-    for path in expand(&args.manifests, &mut problems) {
-        match manifest::load(&path) {
-            Ok(found) => models.extend(found),
-            Err(d) => problems.extend(d),
-        }
-    }
-    problems.extend(duplicate_names(&models));
+    let models = load_models(&args.manifests, &mut problems);
+    let ledger = match &args.ledger {
+        Some(path) => crate::ledger::store::read(path, false)
+            .map_err(|d| problems.push(d))
+            .unwrap_or_default(),
+        None => Vec::new(),
+    };
     let (Some(policy), Some(today), true) = (policy, today, problems.is_empty()) else {
-        for p in &problems {
-            eprintln!("error: {p}");
-        }
-        eprintln!(
-            "vetscore: {} input problem{} found; nothing was checked",
-            problems.len(),
-            if problems.len() == 1 { "" } else { "s" }
-        );
-        return Ok(Exit::InvalidInput);
+        return Ok(report_problems(&problems, "nothing was checked"));
     };
 
-    let assessment = evaluate::evaluate(models, &policy, today);
+    let assessment = evaluate::evaluate(models, &ledger, &policy, today);
     let view = view::build(&assessment, &policy);
     let markdown_text = markdown::render(&view, args.templates.as_deref())?;
     let markdown_to_stdout = args.markdown.as_deref() == Some(Path::new("-"));

@@ -31,6 +31,33 @@ pub enum Command {
         #[arg(value_enum)]
         format: SchemaFormat,
     },
+    /// Record holdout evaluations in the ledger, or verify its hash chain.
+    Ledger {
+        #[command(subcommand)]
+        action: LedgerAction,
+    },
+}
+
+/// Default path of the holdout ledger.
+pub const DEFAULT_LEDGER: &str = "vetscore-ledger.jsonl";
+
+#[derive(Debug, Subcommand)]
+pub enum LedgerAction {
+    /// Append the holdout evaluations in MANIFEST... that the ledger does not record yet.
+    Append {
+        /// The ledger file (created when missing).
+        #[arg(long, value_name = "FILE", default_value = DEFAULT_LEDGER)]
+        ledger: PathBuf,
+        /// Results manifests: paths or glob patterns.
+        #[arg(required = true, value_name = "MANIFEST")]
+        manifests: Vec<String>,
+    },
+    /// Check that no entry was changed, removed or reordered; name the first broken entry.
+    Verify {
+        /// The ledger file.
+        #[arg(long, value_name = "FILE", default_value = DEFAULT_LEDGER)]
+        ledger: PathBuf,
+    },
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
@@ -64,6 +91,10 @@ pub struct CheckArgs {
     /// Render the Markdown report with the templates in DIR instead of the built-in ones.
     #[arg(long, value_name = "DIR")]
     pub templates: Option<PathBuf>,
+
+    /// Count the holdout evaluations recorded in this ledger toward the holdout budget.
+    #[arg(long, value_name = "FILE")]
+    pub ledger: Option<PathBuf>,
 
     /// Judge waiver expiry against this date (YYYY-MM-DD) instead of today's date in UTC.
     #[arg(long, value_name = "DATE")]

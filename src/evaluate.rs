@@ -5,6 +5,7 @@ use std::collections::BTreeMap;
 
 use crate::estimate::{self, Estimate, IntervalSettings};
 use crate::finding::{Finding, PolicySource, Severity, Status, Verdict, WaiverNote, verdict_of};
+use crate::ledger;
 use crate::manifest::Model;
 use crate::policy::{Inconclusive, Policy};
 use crate::rules::{Context, HoldoutUse, RULES, Subject, WaiverView};
@@ -28,11 +29,19 @@ pub struct ModelAssessment {
     pub verdict: Verdict,
 }
 
-/// Runs every rule on every model.
-pub fn evaluate(models: Vec<Model>, policy: &Policy, today: jiff::civil::Date) -> Assessment {
+/// Runs every rule on every model. `ledger` holds earlier holdout evaluations; those not among
+/// the manifests' own count toward the holdout budget too.
+pub fn evaluate(
+    models: Vec<Model>,
+    ledger: &[ledger::Entry],
+    policy: &Policy,
+    today: jiff::civil::Date,
+) -> Assessment {
     let mut holdout_uses: BTreeMap<String, Vec<HoldoutUse>> = BTreeMap::new();
+    let mut keys = std::collections::HashSet::new();
     for model in &models {
-        for _ in &model.holdout {
+        for i in 0..model.holdout.len() {
+            keys.insert(ledger::evaluation_key(model, i));
             holdout_uses
                 .entry(model.data.test_fingerprint.clone())
                 .or_default()
@@ -41,6 +50,15 @@ pub fn evaluate(models: Vec<Model>, policy: &Policy, today: jiff::civil::Date) -
                     file: model.origin.file.clone(),
                 });
         }
+    }
+    for entry in ledger.iter().filter(|e| !keys.contains(&e.key)) {
+        holdout_uses
+            .entry(entry.test_fingerprint.clone())
+            .or_default()
+            .push(HoldoutUse {
+                model: entry.model.clone(),
+                file: format!("ledger entry {}", entry.seq),
+            });
     }
     let names: Vec<&str> = models.iter().map(|m| m.name.as_str()).collect();
     let notes = policy.unmatched_entries(&names);

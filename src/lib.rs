@@ -8,6 +8,7 @@ pub mod estimate;
 pub mod evaluate;
 pub mod finding;
 pub mod input;
+pub mod ledger;
 pub mod manifest;
 pub mod policy;
 pub mod report;
