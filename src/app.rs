@@ -13,7 +13,8 @@ use crate::diag::Diagnostic;
 use crate::finding::Verdict;
 use crate::manifest::{self, Model};
 use crate::policy::Policy;
-use crate::report::{self, markdown, terminal, view};
+use crate::report::templates::{self, Templates};
+use crate::report::{self, terminal, view};
 use crate::{evaluate, rules};
 
 /// How a run ended; `main` turns it into the process exit code.
@@ -175,13 +176,20 @@ fn check(args: &CheckArgs) -> Result<Exit> {
 
     let assessment = evaluate::evaluate(models, &ledger, &policy, today);
     let view = view::build(&assessment, &policy);
-    let markdown_text = markdown::render(&view, args.templates.as_deref())?;
+    let templates = match &args.templates {
+        Some(dir) => Templates::with_overrides(dir)?,
+        None => Templates::built_in(),
+    };
+    let markdown_text = templates.render(templates::MARKDOWN, &view)?;
     let markdown_to_stdout = args.markdown.as_deref() == Some(Path::new("-"));
     if let Some(path) = &args.markdown {
         write_output(path, &markdown_text)?;
     }
     if let Some(path) = &args.json {
         write_output(path, &report::json(&view)?)?;
+    }
+    if let Some(path) = &args.junit {
+        write_output(path, &templates.render(templates::JUNIT, &view)?)?;
     }
     if let Some(summary) = std::env::var_os("GITHUB_STEP_SUMMARY").filter(|s| !s.is_empty()) {
         append(Path::new(&summary), &markdown_text)

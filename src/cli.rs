@@ -88,7 +88,12 @@ pub struct CheckArgs {
     #[arg(long, value_name = "FILE")]
     pub json: Option<PathBuf>,
 
-    /// Render the Markdown report with the templates in DIR instead of the built-in ones.
+    /// Write JUnit XML to FILE: one test case per model and rule, for CI test views.
+    #[arg(long, value_name = "FILE")]
+    pub junit: Option<PathBuf>,
+
+    /// Render reports with the templates in DIR (report.md.j2, junit.xml.j2) instead of the
+    /// built-in ones; a template missing from DIR stays built in.
     #[arg(long, value_name = "DIR")]
     pub templates: Option<PathBuf>,
 

@@ -20,7 +20,13 @@ fn bin() -> Command {
 /// A manifest with one model and `looks` scorings of the test split `fingerprint`.
 fn manifest(dir: &Path, name: &str, fingerprint: &str, looks: usize) -> String {
     let holdout: String = (0..looks)
-        .map(|i| format!("      - {{time: 2026-11-01T{:02}:{:02}:00Z, score: 0.5}}\n", i / 60, i % 60))
+        .map(|i| {
+            format!(
+                "      - {{time: 2026-11-01T{:02}:{:02}:00Z, score: 0.5}}\n",
+                i / 60,
+                i % 60
+            )
+        })
         .collect();
     let text = format!(
         "format_version: 1\nmodels:\n  - name: {name}\n    task: binary\n    metric: accuracy\n    \
@@ -35,7 +41,11 @@ fn manifest(dir: &Path, name: &str, fingerprint: &str, looks: usize) -> String {
 }
 
 fn lines(path: &Path) -> Vec<String> {
-    std::fs::read_to_string(path).unwrap().lines().map(str::to_owned).collect()
+    std::fs::read_to_string(path)
+        .unwrap()
+        .lines()
+        .map(str::to_owned)
+        .collect()
 }
 
 #[test]
@@ -43,11 +53,23 @@ fn appending_twice_records_each_evaluation_once() {
     let dir = tempfile::tempdir().unwrap();
     let ledger = dir.path().join("ledger.jsonl");
     let ledger = ledger.to_str().unwrap();
-    let first = vetscore(&["ledger", "append", "--ledger", ledger, "fixtures/demo/manifests/*"]);
+    let first = vetscore(&[
+        "ledger",
+        "append",
+        "--ledger",
+        ledger,
+        "fixtures/demo/manifests/*",
+    ]);
     assert_eq!(first.status.code(), Some(0), "{}", stderr(&first));
     // The demo manifests record 2 + 1 + 4 + 1 + 1 = 9 holdout evaluations.
     assert!(stdout(&first).contains("9 new entries"));
-    let again = vetscore(&["ledger", "append", "--ledger", ledger, "fixtures/demo/manifests/*"]);
+    let again = vetscore(&[
+        "ledger",
+        "append",
+        "--ledger",
+        ledger,
+        "fixtures/demo/manifests/*",
+    ]);
     assert!(stdout(&again).contains("0 new entries"));
     assert_eq!(lines(Path::new(ledger)).len(), 9);
     let verify = vetscore(&["ledger", "verify", "--ledger", ledger]);
@@ -60,7 +82,13 @@ fn a_tampered_middle_entry_is_rejected_by_name() {
     let dir = tempfile::tempdir().unwrap();
     let path = dir.path().join("ledger.jsonl");
     let ledger = path.to_str().unwrap();
-    vetscore(&["ledger", "append", "--ledger", ledger, "fixtures/demo/manifests/*"]);
+    vetscore(&[
+        "ledger",
+        "append",
+        "--ledger",
+        ledger,
+        "fixtures/demo/manifests/*",
+    ]);
     let original = lines(&path);
 
     // Change the score of entry 5 and leave its hash alone.
@@ -83,7 +111,11 @@ fn a_tampered_middle_entry_is_rejected_by_name() {
     std::fs::write(&path, removed.join("\n") + "\n").unwrap();
     let out = vetscore(&["ledger", "verify", "--ledger", ledger]);
     assert_eq!(out.status.code(), Some(2));
-    assert!(stderr(&out).contains(":5: (ledger): entry 6 is at position 5"), "{}", stderr(&out));
+    assert!(
+        stderr(&out).contains(":5: (ledger): entry 6 is at position 5"),
+        "{}",
+        stderr(&out)
+    );
 
     // A check that counts a tampered ledger is refused, not run.
     std::fs::write(&path, edited.join("\n") + "\n").unwrap();
@@ -104,7 +136,12 @@ fn concurrent_appends_from_several_processes_lose_nothing() {
     let looks = 25;
     let children: Vec<_> = (0..writers)
         .map(|w| {
-            let m = manifest(dir.path(), &format!("writer-{w}"), &format!("fp-{w}"), looks);
+            let m = manifest(
+                dir.path(),
+                &format!("writer-{w}"),
+                &format!("fp-{w}"),
+                looks,
+            );
             bin()
                 .args(["ledger", "append", "--ledger", ledger.to_str().unwrap(), &m])
                 .stdout(Stdio::null())
@@ -138,9 +175,17 @@ fn an_append_killed_midway_leaves_the_old_or_the_new_ledger() {
         child.wait().unwrap();
         let verify = vetscore(&["ledger", "verify", "--ledger", &ledger_arg]);
         if ledger.exists() {
-            assert_eq!(verify.status.code(), Some(0), "round {round}: {}", stderr(&verify));
+            assert_eq!(
+                verify.status.code(),
+                Some(0),
+                "round {round}: {}",
+                stderr(&verify)
+            );
             let now = lines(&ledger).len();
-            assert!(now == recorded || now == recorded + 400, "round {round}: {now} entries");
+            assert!(
+                now == recorded || now == recorded + 400,
+                "round {round}: {now} entries"
+            );
             recorded = now;
         }
     }
@@ -155,13 +200,22 @@ fn the_holdout_budget_counts_ledger_entries_from_earlier_runs() {
     vetscore(&["ledger", "append", "--ledger", ledger, &earlier]);
     let today = manifest(dir.path(), "todays-run", "fp-reused", 2);
     let json = dir.path().join("report.json");
-    let args = ["check", "--today", "2026-12-01", "--json", json.to_str().unwrap()];
+    let args = [
+        "check",
+        "--today",
+        "2026-12-01",
+        "--json",
+        json.to_str().unwrap(),
+    ];
     // Alone, two looks fit the default budget of three.
     let mut alone = args.to_vec();
     alone.push(&today);
     vetscore(&alone);
     let report = Report::read(&json);
-    assert_eq!(report.model("todays-run").finding("holdout_budget").status, "pass");
+    assert_eq!(
+        report.model("todays-run").finding("holdout_budget").status,
+        "pass"
+    );
     // With the ledger, the two earlier looks at the same split count too: four looks.
     let mut with_ledger = args.to_vec();
     with_ledger.extend(["--ledger", ledger, &today]);
@@ -170,5 +224,8 @@ fn the_holdout_budget_counts_ledger_entries_from_earlier_runs() {
     let report = Report::read(&json);
     let finding = report.model("todays-run").finding("holdout_budget");
     assert_eq!(finding.status, "fail");
-    assert_eq!(finding.evidence("looks").value.as_ref().unwrap().as_f64(), Some(4.0));
+    assert_eq!(
+        finding.evidence("looks").value.as_ref().unwrap().as_f64(),
+        Some(4.0)
+    );
 }

@@ -35,6 +35,17 @@ pub fn markdown(text: &str) -> String {
     out
 }
 
+/// Drops the characters XML 1.0 cannot carry even escaped (most control characters); the
+/// template engine's HTML escaping then takes care of `<`, `>`, `&` and quotes.
+pub fn xml_chars(text: &str) -> String {
+    text.chars()
+        .filter(|&c| {
+            matches!(c, '\t' | '\n' | '\r')
+                || !(c.is_control() || c == '\u{fffe}' || c == '\u{ffff}')
+        })
+        .collect()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -49,6 +60,11 @@ mod tests {
         assert_eq!(markdown("@team"), "@\u{200d}team");
         assert_eq!(markdown("a|b\nc"), "a\\|b c");
         assert_eq!(markdown("`x`"), "\\`x\\`");
+    }
+
+    #[test]
+    fn xml_drops_control_characters() {
+        assert_eq!(xml_chars("a\u{1}b\tc\u{7f}"), "ab\tc");
     }
 
     #[test]

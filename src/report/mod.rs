@@ -1,10 +1,10 @@
-//! Reports: one [`view::View`] built from the assessment, rendered as Markdown (minijinja
-//! templates), JSON and a short terminal summary. Renderers read only the view.
+//! Reports: one [`view::View`] built from the assessment, rendered as Markdown and JUnit XML
+//! (minijinja templates), JSON and a short terminal summary. Renderers read only the view.
 
 pub mod escape;
 pub mod format;
-pub mod markdown;
 pub mod strip;
+pub mod templates;
 pub mod terminal;
 pub mod view;
 

@@ -97,6 +97,8 @@ pub struct FindingView {
     pub rule_name: &'static str,
     pub severity: Severity,
     pub status: Status,
+    /// What the finding does to its model's verdict.
+    pub effect: Effect,
     /// The finding's sentence with its numbers filled in, as plain text.
     pub message: String,
     /// The same sentence, safe to place in Markdown.
@@ -104,6 +106,18 @@ pub struct FindingView {
     pub evidence: Vec<EvidenceView>,
     pub policy: crate::finding::PolicySource,
     pub waiver: Option<crate::finding::WaiverNote>,
+}
+
+/// What a finding does to its model's verdict.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, JsonSchema)]
+#[serde(rename_all = "snake_case")]
+pub enum Effect {
+    /// It makes the model unsupported.
+    Blocks,
+    /// It is reported as a warning.
+    Warns,
+    /// It changes nothing (passed, skipped or waived).
+    None,
 }
 
 #[derive(Debug, Clone, Serialize, JsonSchema)]
@@ -232,6 +246,13 @@ fn finding_view(f: &Finding) -> FindingView {
         rule_name: rules::rule(f.rule).map_or(f.rule, |r| r.name),
         severity: f.severity,
         status: f.status,
+        effect: if f.blocks() {
+            Effect::Blocks
+        } else if f.warns() {
+            Effect::Warns
+        } else {
+            Effect::None
+        },
         message: fill(&f.sentence, &f.evidence, |s| s.to_owned()),
         message_markdown: fill(&f.sentence, &f.evidence, escape::markdown),
         evidence: f

@@ -118,6 +118,7 @@ pub struct FindingReport {
     pub rule_name: String,
     pub severity: String,
     pub status: String,
+    pub effect: String,
     pub message: String,
     pub message_markdown: String,
     pub evidence: Vec<EvidenceReport>,
