@@ -163,6 +163,10 @@ fn check(args: &CheckArgs) -> Result<Exit> {
         Some(path) => Policy::load(path).map_err(|d| problems.extend(d)).ok(),
         None => Some(Policy::defaults()),
     };
+    let base_policy = args
+        .base_policy
+        .as_ref()
+        .and_then(|path| Policy::load(path).map_err(|d| problems.extend(d)).ok());
     let models = load_models(&args.manifests, &mut problems);
     let ledger = match &args.ledger {
         Some(path) => crate::ledger::store::read(path, false)
@@ -174,8 +178,8 @@ fn check(args: &CheckArgs) -> Result<Exit> {
         return Ok(report_problems(&problems, "nothing was checked"));
     };
 
-    let assessment = evaluate::evaluate(models, &ledger, &policy, today);
-    let view = view::build(&assessment, &policy);
+    let assessment = evaluate::evaluate(models, &ledger, &policy, base_policy.as_ref(), today);
+    let view = view::build(&assessment, &policy, base_policy.as_ref());
     let templates = match &args.templates {
         Some(dir) => Templates::with_overrides(dir)?,
         None => Templates::built_in(),

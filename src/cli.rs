@@ -97,6 +97,11 @@ pub struct CheckArgs {
     #[arg(long, value_name = "DIR")]
     pub templates: Option<PathBuf>,
 
+    /// The base branch's policy file: changes that loosen the gate become findings, and the
+    /// report shows the diff.
+    #[arg(long, value_name = "FILE")]
+    pub base_policy: Option<PathBuf>,
+
     /// Count the holdout evaluations recorded in this ledger toward the holdout budget.
     #[arg(long, value_name = "FILE")]
     pub ledger: Option<PathBuf>,

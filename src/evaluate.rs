@@ -8,7 +8,7 @@ use crate::finding::{Finding, PolicySource, Severity, Status, Verdict, WaiverNot
 use crate::ledger;
 use crate::manifest::Model;
 use crate::policy::{Inconclusive, Policy};
-use crate::rules::{Context, HoldoutUse, RULES, Subject, WaiverView};
+use crate::rules::{BasePolicy, Context, HoldoutUse, RULES, Subject, WaiverView};
 
 /// The outcome of a whole check.
 #[derive(Debug, Clone)]
@@ -35,6 +35,7 @@ pub fn evaluate(
     models: Vec<Model>,
     ledger: &[ledger::Entry],
     policy: &Policy,
+    base_policy: Option<&Policy>,
     today: jiff::civil::Date,
 ) -> Assessment {
     let mut holdout_uses: BTreeMap<String, Vec<HoldoutUse>> = BTreeMap::new();
@@ -72,19 +73,20 @@ pub fn evaluate(
         holdout_uses,
         today,
         waivers: Vec::new(),
+        inconclusive_fails: policy.inconclusive == Inconclusive::Fail,
+        base: None,
     };
     let assessed: Vec<ModelAssessment> = models
         .into_iter()
         .map(|model| {
-            context.waivers = policy
-                .waivers_for(&model.name)
-                .map(|w| WaiverView {
-                    rule: w.rule.clone(),
-                    reason: w.reason.clone(),
-                    expires: w.expires,
-                    path: w.path.clone(),
-                })
-                .collect();
+            context.waivers = waiver_views(policy, &model.name);
+            context.base = base_policy.map(|b| BasePolicy {
+                settings: b.settings_for(&model.name).0,
+                confidence: b.confidence,
+                interval_method: b.interval_method,
+                inconclusive_fails: b.inconclusive == Inconclusive::Fail,
+                waivers: waiver_views(b, &model.name),
+            });
             assess(model, policy, &context, interval)
         })
         .collect();
@@ -93,6 +95,19 @@ pub fn evaluate(
         models: assessed,
         notes,
     }
+}
+
+fn waiver_views(policy: &Policy, model: &str) -> Vec<WaiverView> {
+    policy
+        .waivers_for(model)
+        .map(|w| WaiverView {
+            rule: w.rule.clone(),
+            pattern: w.pattern.clone(),
+            reason: w.reason.clone(),
+            expires: w.expires,
+            path: w.path.clone(),
+        })
+        .collect()
 }
 
 fn assess(
@@ -110,7 +125,10 @@ fn assess(
     let findings: Vec<Finding> = RULES
         .iter()
         .map(|rule| {
-            let mut severity = settings.severity(rule.id);
+            let mut severity = match (&context.base, rule.severity_from_base) {
+                (Some(base), true) => base.settings.severity(rule.id),
+                _ => settings.severity(rule.id),
+            };
             let policy_source = sources.get(rule.id).cloned().unwrap_or(PolicySource {
                 path: "defaults".to_owned(),
                 line: None,

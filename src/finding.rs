@@ -50,6 +50,17 @@ pub enum Verdict {
     Supported,
 }
 
+impl Severity {
+    /// The name used in policy files and reports.
+    pub fn name(self) -> &'static str {
+        match self {
+            Severity::Off => "off",
+            Severity::Warn => "warn",
+            Severity::Error => "error",
+        }
+    }
+}
+
 impl Verdict {
     /// The plain words used in reports.
     pub fn label(self) -> &'static str {

@@ -121,7 +121,7 @@ fn every_fixture_validates_against_the_published_input_schemas() {
         }
         let text = std::fs::read_to_string(&path).unwrap();
         let value: serde_json::Value = serde_saphyr::from_str(&text).unwrap();
-        let validator = if name == "policy.yaml" {
+        let validator = if name.ends_with("policy.yaml") {
             &policies
         } else {
             &manifests

@@ -1,6 +1,6 @@
 //! Runs every scenario under `fixtures/scenarios/`: each folder holds one or more manifests
 //! (`.yaml`/`.json`; other files, such as trials, are read through them), an
-//! optional `policy.yaml` and an `expect.yaml` naming the exit code, the findings that must
+//! optional `policy.yaml` (and `base-policy.yaml`, the base branch's) and an `expect.yaml` naming the exit code, the findings that must
 //! appear with their status, and reference numbers with their published source. Together the
 //! scenarios must make every rule both fail and pass at least once.
 
@@ -65,7 +65,7 @@ fn run_scenario(dir: &Path, seen: &mut BTreeSet<(String, String)>) {
         .filter(|p| {
             let file = p.file_name().unwrap().to_string_lossy();
             let manifest = file.ends_with(".yaml") || file.ends_with(".json");
-            manifest && file != "expect.yaml" && file != "policy.yaml"
+            manifest && !matches!(&*file, "expect.yaml" | "policy.yaml" | "base-policy.yaml")
         })
         .map(|p| p.to_string_lossy().into_owned())
         .collect();
@@ -81,6 +81,11 @@ fn run_scenario(dir: &Path, seen: &mut BTreeSet<(String, String)>) {
     if policy.exists() {
         args.push("--policy".into());
         args.push(policy.to_string_lossy().into_owned());
+    }
+    let base = dir.join("base-policy.yaml");
+    if base.exists() {
+        args.push("--base-policy".into());
+        args.push(base.to_string_lossy().into_owned());
     }
     args.push("--today".into());
     args.push(expect.today.clone().unwrap_or_else(|| "2026-12-01".into()));

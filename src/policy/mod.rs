@@ -98,6 +98,8 @@ pub struct Policy {
     pub file: Option<String>,
     /// SHA-256 of the policy file's bytes, or `defaults`.
     pub digest: String,
+    /// The policy file's text, for the policy-change diff.
+    pub text: Option<String>,
     pub confidence: f64,
     pub interval_method: ProportionMethod,
     pub inconclusive: Inconclusive,
@@ -141,6 +143,7 @@ impl Policy {
         Policy {
             file: None,
             digest: "defaults".to_owned(),
+            text: None,
             confidence: 0.95,
             interval_method: ProportionMethod::Wilson,
             inconclusive: Inconclusive::Fail,
@@ -159,7 +162,9 @@ impl Policy {
         let raw: RawPolicy =
             input::parse(&file, &text, Syntax::detect(path, &text)).map_err(|d| vec![d])?;
         let digest = hex(&Sha256::digest(text.as_bytes()));
-        validate(&file, raw, digest)
+        let mut policy = validate(&file, raw, digest)?;
+        policy.text = Some(text);
+        Ok(policy)
     }
 
     /// The rule settings for one model, with where each rule's settings came from.
@@ -347,6 +352,7 @@ pub fn validate(file: &str, raw: RawPolicy, digest: String) -> Result<Policy, Ve
     out.finish(Policy {
         file: Some(file.to_owned()),
         digest,
+        text: None,
         confidence,
         interval_method: raw.interval_method.unwrap_or(defaults.interval_method),
         inconclusive: raw.inconclusive.unwrap_or_default(),

@@ -26,7 +26,18 @@ pub struct View {
     pub policy: PolicyView,
     /// Remarks about the policy, such as entries that matched no model.
     pub notes: Vec<String>,
+    /// The unified diff from the base branch's policy, when it differs.
+    pub policy_diff: Option<PolicyDiff>,
     pub models: Vec<ModelView>,
+}
+
+#[derive(Debug, Clone, Serialize, JsonSchema)]
+pub struct PolicyDiff {
+    pub base_file: Option<String>,
+    /// The diff in unified format.
+    pub text: String,
+    /// A code fence longer than any run of backticks in the diff, so the diff cannot close it.
+    pub fence: String,
 }
 
 #[derive(Debug, Clone, Serialize, JsonSchema)]
@@ -130,8 +141,8 @@ pub struct EvidenceView {
     pub text: String,
 }
 
-/// Builds the view of an assessment.
-pub fn build(assessment: &Assessment, policy: &Policy) -> View {
+/// Builds the view of an assessment; `base_policy` is the base branch's policy, when given.
+pub fn build(assessment: &Assessment, policy: &Policy, base_policy: Option<&Policy>) -> View {
     let models: Vec<ModelView> = assessment.models.iter().map(model_view).collect();
     let count = |v: Verdict| models.iter().filter(|m| m.verdict == v).count();
     View {
@@ -157,8 +168,31 @@ pub fn build(assessment: &Assessment, policy: &Policy) -> View {
             interval_method_label: method_label(policy.interval_method),
         },
         notes: assessment.notes.clone(),
+        policy_diff: base_policy.and_then(|base| policy_diff(base, policy)),
         models,
     }
+}
+
+fn policy_diff(base: &Policy, policy: &Policy) -> Option<PolicyDiff> {
+    let old = base.text.as_deref().unwrap_or("");
+    let new = policy.text.as_deref().unwrap_or("");
+    if old == new {
+        return None;
+    }
+    let text = similar::TextDiff::from_lines(old, new)
+        .unified_diff()
+        .context_radius(3)
+        .header(
+            base.file.as_deref().unwrap_or("(defaults)"),
+            policy.file.as_deref().unwrap_or("(defaults)"),
+        )
+        .to_string();
+    let longest = text.split(|c| c != '`').map(str::len).max().unwrap_or(0);
+    Some(PolicyDiff {
+        base_file: base.file.clone(),
+        fence: "`".repeat(longest.max(2) + 1),
+        text,
+    })
 }
 
 fn method_label(method: crate::stats::ProportionMethod) -> &'static str {

@@ -8,7 +8,7 @@ rule_settings! {
     /// Settings of the claim-support rule.
     severity = Severity::Error;
     /// Whether a claim may rest on cross-validation alone.
-    allow_cv_claims: bool = true,
+    allow_cv_claims: bool = true, looser: True,
 }
 
 pub const RULE: RuleInfo = RuleInfo {
@@ -24,6 +24,7 @@ the evidence. A claim with basis `cv` must lie inside the cross-validation inter
 rests on the best of many configurations, the selection-optimism rule also judges it after \
 adjusting for the search, and the policy may forbid such claims with `allow_cv_claims: false`.",
     check,
+    severity_from_base: false,
 };
 
 pub fn problems(_raw: &RawSettings) -> Vec<(String, String)> {

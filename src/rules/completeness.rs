@@ -74,11 +74,25 @@ impl Field {
     }
 }
 
+impl super::SettingValue for Vec<Field> {
+    fn show(&self) -> String {
+        let names: Vec<&str> = self.iter().map(|f| f.name()).collect();
+        format!("[{}]", names.join(", "))
+    }
+    fn is_looser(&self, base: &Self, way: super::Looser) -> bool {
+        match way {
+            super::Looser::Fewer => base.iter().any(|f| !self.contains(f)),
+            _ => self != base,
+        }
+    }
+}
+
 rule_settings! {
     /// Settings of the completeness rule.
     severity = Severity::Warn;
     /// Manifest fields every model must carry.
     required: Vec<Field> = vec![Field::Seed, Field::Search, Field::Configurations, Field::Holdout],
+        looser: Fewer,
 }
 
 pub const RULE: RuleInfo = RuleInfo {
@@ -92,6 +106,7 @@ adjustment needs the number of configurations tried. An absent field never count
 that all is well; requiring it makes the training job write it. This is common practice in \
 reporting guidelines for predictive models (no single source).",
     check,
+    severity_from_base: false,
 };
 
 pub fn problems(raw: &RawSettings) -> Vec<(String, String)> {

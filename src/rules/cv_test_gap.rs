@@ -9,9 +9,9 @@ rule_settings! {
     /// Settings of the CV-to-test gap rule.
     severity = Severity::Error;
     /// Largest allowed |CV estimate − test score|, in the metric's units.
-    max_gap: f64 = 0.05,
+    max_gap: f64 = 0.05, looser: Larger,
     /// Whether a gap beyond sampling noise fails even when it is inside `max_gap`.
-    fail_beyond_noise: bool = true,
+    fail_beyond_noise: bool = true, looser: False,
 }
 
 pub const RULE: RuleInfo = RuleInfo {
@@ -27,6 +27,7 @@ the CV estimate and the test split disagree for a reason other than chance: opti
 selection, leakage in the folds, or a test split drawn from a different population. Other \
 metrics are judged against `max_gap` only until per-example predictions give them an interval.",
     check,
+    severity_from_base: false,
 };
 
 pub fn problems(raw: &RawSettings) -> Vec<(String, String)> {

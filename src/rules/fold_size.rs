@@ -8,11 +8,11 @@ rule_settings! {
     /// Settings of the fold-size rule.
     severity = Severity::Error;
     /// Fewest rows a validation fold may hold.
-    min_rows: u64 = 30,
+    min_rows: u64 = 30, looser: Smaller,
     /// Fewest rows of any one class a validation fold may hold (when class counts are given).
-    min_class_rows: u64 = 5,
+    min_class_rows: u64 = 5, looser: Smaller,
     /// Margin of error the report states the needed rows for (Cochran's formula).
-    margin: f64 = 0.05,
+    margin: f64 = 0.05, looser: Any,
 }
 
 pub const RULE: RuleInfo = RuleInfo {
@@ -27,6 +27,7 @@ smallest fold at the CV estimate and the rows a fold would need for a margin of 
 policy's confidence by Cochran's formula n = z²·p(1−p)/E² (Cochran 1977, Sampling Techniques, \
 ch. 4), both at the CV estimate and at the worst case p = 0.5.",
     check,
+    severity_from_base: false,
 };
 
 pub fn problems(raw: &RawSettings) -> Vec<(String, String)> {

@@ -8,7 +8,7 @@ rule_settings! {
     /// Settings of the holdout budget.
     severity = Severity::Error;
     /// Most scorings of one test split allowed across the check (and the ledger).
-    max_evaluations: u64 = 3,
+    max_evaluations: u64 = 3, looser: Larger,
 }
 
 pub const RULE: RuleInfo = RuleInfo {
@@ -23,6 +23,7 @@ The finding reports the test interval widened for k looks with the Bonferroni co
 a union bound over the k looks, ε = √(ln(2k/α) / 2n) (Hoeffding 1963). If a fresh split is not \
 available, report the widened interval rather than the plain one.",
     check,
+    severity_from_base: false,
 };
 
 pub fn problems(raw: &RawSettings) -> Vec<(String, String)> {

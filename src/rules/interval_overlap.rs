@@ -20,6 +20,7 @@ intervals'), so intervals can overlap while the difference is still significant.
 CV-to-test gap rule runs a direct test of the difference as well; this rule is the picture a \
 reviewer sees in the interval strip, and it defaults to a warning.",
     check,
+    severity_from_base: false,
 };
 
 pub fn problems(_raw: &RawSettings) -> Vec<(String, String)> {

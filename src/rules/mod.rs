@@ -22,6 +22,7 @@ pub mod cv_test_gap;
 pub mod fold_size;
 pub mod holdout_budget;
 pub mod interval_overlap;
+pub mod policy_change;
 pub mod selection_optimism;
 pub mod waiver_expiry;
 
@@ -50,7 +51,7 @@ macro_rules! rule_settings {
     (
         $(#[$meta:meta])*
         severity = $severity:expr;
-        $( $(#[$fmeta:meta])* $field:ident : $ty:ty = $default:expr ),* $(,)?
+        $( $(#[$fmeta:meta])* $field:ident : $ty:ty = $default:expr, looser: $way:ident ),* $(,)?
     ) => {
         $(#[$meta])*
         #[derive(Debug, Clone, PartialEq)]
@@ -87,8 +88,103 @@ macro_rules! rule_settings {
                 }
                 $( if let Some(value) = &raw.$field { self.$field = value.clone(); } )*
             }
+
+            /// The settings that differ from `base`, and whether each change loosens the rule.
+            pub fn changes(&self, base: &Self, rule: &str) -> Vec<$crate::rules::SettingChange> {
+                #[allow(unused_imports)]
+                use $crate::rules::SettingValue as _;
+                let mut out = Vec::new();
+                if self.severity != base.severity {
+                    out.push($crate::rules::SettingChange {
+                        setting: format!("rules.{rule}.severity"),
+                        from: base.severity.name().to_owned(),
+                        to: self.severity.name().to_owned(),
+                        looser: self.severity < base.severity,
+                    });
+                }
+                $( if self.$field != base.$field {
+                    out.push($crate::rules::SettingChange {
+                        setting: format!("rules.{rule}.{}", stringify!($field)),
+                        from: base.$field.show(),
+                        to: self.$field.show(),
+                        looser: self.$field.is_looser(&base.$field, $crate::rules::Looser::$way),
+                    });
+                } )*
+                out
+            }
         }
     };
+}
+
+/// Which way a setting moves when a policy gets looser.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Looser {
+    /// A larger value lets more through (a bound, a budget).
+    Larger,
+    /// A smaller value lets more through (a minimum).
+    Smaller,
+    /// Turning it on lets more through.
+    True,
+    /// Turning it off lets more through.
+    False,
+    /// Removing items lets more through (required fields).
+    Fewer,
+    /// No direction is known, so any change is treated as loosening until reviewed.
+    Any,
+}
+
+/// One setting that differs between the base branch's policy and this one.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SettingChange {
+    pub setting: String,
+    pub from: String,
+    pub to: String,
+    pub looser: bool,
+}
+
+/// A rule setting's value, as the policy-change review compares and shows it.
+pub trait SettingValue {
+    fn show(&self) -> String;
+    fn is_looser(&self, base: &Self, way: Looser) -> bool;
+}
+
+impl SettingValue for f64 {
+    fn show(&self) -> String {
+        self.to_string()
+    }
+    fn is_looser(&self, base: &Self, way: Looser) -> bool {
+        match way {
+            Looser::Larger => self > base,
+            Looser::Smaller => self < base,
+            _ => self != base,
+        }
+    }
+}
+
+impl SettingValue for u64 {
+    fn show(&self) -> String {
+        self.to_string()
+    }
+    fn is_looser(&self, base: &Self, way: Looser) -> bool {
+        match way {
+            Looser::Larger => self > base,
+            Looser::Smaller => self < base,
+            _ => self != base,
+        }
+    }
+}
+
+impl SettingValue for bool {
+    fn show(&self) -> String {
+        self.to_string()
+    }
+    fn is_looser(&self, base: &Self, way: Looser) -> bool {
+        match way {
+            Looser::True => *self && !base,
+            Looser::False => !*self && *base,
+            _ => self != base,
+        }
+    }
 }
 pub(crate) use rule_settings;
 
@@ -115,6 +211,13 @@ macro_rules! all_settings {
                 let mut touched = Vec::new();
                 $( if let Some(r) = &raw.$id { self.$id.apply(r); touched.push(stringify!($id)); } )*
                 touched
+            }
+
+            /// Every setting that differs from `base`, rule by rule.
+            pub fn changes(&self, base: &RuleSettings) -> Vec<SettingChange> {
+                let mut out = Vec::new();
+                $( out.extend(self.$id.changes(&base.$id, stringify!($id))); )*
+                out
             }
 
             /// The severity of rule `id` (`Off` for an unknown id).
@@ -151,6 +254,7 @@ all_settings!(
     fold_size,
     completeness,
     waiver_expiry,
+    policy_change,
 );
 
 /// A registered rule.
@@ -163,6 +267,8 @@ pub struct RuleInfo {
     /// One paragraph: what the rule checks, how, and the published source of the method.
     pub explanation: &'static str,
     pub check: fn(&Subject, &Context, &RuleSettings) -> Outcome,
+    /// Whether the rule's severity comes from the base branch's policy when one is given.
+    pub severity_from_base: bool,
 }
 
 /// Looks up a rule by id.
@@ -189,6 +295,8 @@ pub struct HoldoutUse {
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct WaiverView {
     pub rule: String,
+    /// The waiver's model pattern.
+    pub pattern: String,
     pub reason: String,
     pub expires: jiff::civil::Date,
     /// Where the waiver is in the policy, e.g. `waivers[2]`.
@@ -205,6 +313,20 @@ pub struct Context {
     /// The date waivers are judged against.
     pub today: jiff::civil::Date,
     /// The waivers whose model pattern matches the model being checked.
+    pub waivers: Vec<WaiverView>,
+    /// Whether an inconclusive rule fails at its severity (the policy's `inconclusive: fail`).
+    pub inconclusive_fails: bool,
+    /// The base branch's policy as it applies to the model being checked, when given.
+    pub base: Option<BasePolicy>,
+}
+
+/// The base branch's policy for one model, for the policy-change review.
+#[derive(Debug, Clone)]
+pub struct BasePolicy {
+    pub settings: RuleSettings,
+    pub confidence: f64,
+    pub interval_method: ProportionMethod,
+    pub inconclusive_fails: bool,
     pub waivers: Vec<WaiverView>,
 }
 

@@ -30,11 +30,20 @@ impl Gate {
     }
 }
 
+impl super::SettingValue for Gate {
+    fn show(&self) -> String {
+        self.label().to_owned()
+    }
+    fn is_looser(&self, base: &Self, _way: super::Looser) -> bool {
+        self != base
+    }
+}
+
 rule_settings! {
     /// Settings of the selection-optimism rule.
     severity = Severity::Error;
     /// The estimate that decides whether a CV claim is supported.
-    gate: Gate = Gate::ExpectedMax,
+    gate: Gate = Gate::ExpectedMax, looser: Any,
 }
 
 pub const RULE: RuleInfo = RuleInfo {
@@ -59,6 +68,7 @@ rests on an untouched split and passes; the estimates are reported for informati
 larger validation set, nested cross-validation, fewer configurations, or a claim on an untouched \
 test split.",
     check,
+    severity_from_base: false,
 };
 
 pub fn problems(_raw: &RawSettings) -> Vec<(String, String)> {

@@ -19,6 +19,7 @@ the end of its `expires` day. Dates are compared with the date the check runs on
 date given with `--today` for reproducible runs. This is common practice for exception \
 registers (no single source).",
     check,
+    severity_from_base: false,
 };
 
 pub fn problems(_raw: &RawSettings) -> Vec<(String, String)> {

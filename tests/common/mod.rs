@@ -43,6 +43,7 @@ pub struct Report {
     pub counts: Counts,
     pub policy: PolicyInfo,
     pub notes: Vec<String>,
+    pub policy_diff: Option<serde_json::Value>,
     pub models: Vec<ModelReport>,
 }
 
