@@ -56,7 +56,96 @@ pub fn run(cli: Cli) -> Result<Exit> {
             Ok(Exit::Supported)
         }
         Command::Ledger { action } => ledger(action),
+        Command::Init { policy, force } => init(&policy, force),
+        Command::Plan(args) => plan(&args),
     }
+}
+
+/// The starter policy `init` writes: the built-in defaults, commented.
+pub const STARTER_POLICY: &str = include_str!("../templates/starter-policy.yaml");
+/// The CI snippets `init` prints.
+pub const GITHUB_ACTIONS: &str = include_str!("../templates/ci/github-actions.yml");
+pub const GITLAB_CI: &str = include_str!("../templates/ci/gitlab-ci.yml");
+
+fn init(policy: &Path, force: bool) -> Result<Exit> {
+    if policy.exists() && !force {
+        let d = Diagnostic::file(
+            policy.display().to_string(),
+            "already exists; nothing was written",
+        )
+        .with_help("pass --force to overwrite it");
+        return Ok(report_problems(&[d], "nothing was written"));
+    }
+    std::fs::write(policy, STARTER_POLICY)
+        .with_context(|| format!("cannot write {}", policy.display()))?;
+    println!("Wrote the starter policy to {}.\n", policy.display());
+    println!("GitHub Actions (.github/workflows/vetscore.yml):\n\n{GITHUB_ACTIONS}");
+    println!("GitLab CI (.gitlab-ci.yml):\n\n{GITLAB_CI}");
+    Ok(Exit::Supported)
+}
+
+fn plan(args: &crate::cli::PlanArgs) -> Result<Exit> {
+    if args.rows.is_none() && args.margin.is_none() {
+        let d = Diagnostic::file("(command line)", "give --rows, --margin or both");
+        return Ok(report_problems(&[d], "nothing was planned"));
+    }
+    let input = crate::plan::PlanInput {
+        rows: args.rows,
+        margin: args.margin,
+        looks: args.looks,
+        confidence: args.confidence,
+    };
+    let plan = match crate::plan::plan(input) {
+        Ok(p) => p,
+        Err(e) => {
+            let d = Diagnostic::file("(command line)", e.to_string());
+            return Ok(report_problems(&[d], "nothing was planned"));
+        }
+    };
+    if args.json {
+        println!("{}", serde_json::to_string_pretty(&plan)?);
+        return Ok(Exit::Supported);
+    }
+    let pct = report::format::confidence(plan.confidence);
+    let k = plan.looks;
+    let line = |label: String, value: String| println!("  {label:<46} {value}");
+    if let Some(n) = plan.rows {
+        println!("A test split of {n} rows, at {pct} confidence, accuracy near 0.5:");
+        if let Some(m) = plan.margin_normal {
+            line("margin of error, one look".into(), format!("±{m:.4}"));
+        }
+        if let Some(m) = plan.margin_bonferroni {
+            line(
+                format!("margin over {k} looks (Bonferroni)"),
+                format!("±{m:.4}"),
+            );
+        }
+        if let Some(m) = plan.margin_hoeffding {
+            line(
+                format!("margin over {k} looks (Hoeffding, any data)"),
+                format!("±{m:.4}"),
+            );
+        }
+    }
+    if let Some(e) = plan.margin {
+        println!("For a margin of ±{e} at {pct} confidence:");
+        if let Some(r) = plan.rows_cochran {
+            line("rows needed, one look (Cochran)".into(), r.to_string());
+        }
+        if let Some(r) = plan.rows_hoeffding {
+            line(
+                format!("rows needed over {k} looks (Hoeffding)"),
+                r.to_string(),
+            );
+        }
+        if let Some(n) = plan.looks_bonferroni {
+            line("looks the split affords (Bonferroni)".into(), n.to_string());
+        }
+        if let Some(n) = plan.looks_hoeffding {
+            line("looks the split affords (Hoeffding)".into(), n.to_string());
+        }
+    }
+    Ok(Exit::Supported)
 }
 
 fn report_problems(problems: &[Diagnostic], what: &str) -> Exit {
@@ -179,7 +268,17 @@ fn check(args: &CheckArgs) -> Result<Exit> {
     };
 
     let assessment = evaluate::evaluate(models, &ledger, &policy, base_policy.as_ref(), today);
-    let view = view::build(&assessment, &policy, base_policy.as_ref());
+    let mut view = view::build(&assessment, &policy, base_policy.as_ref());
+    if let Some(path) = &args.baseline {
+        let compared = crate::input::read_text(path).and_then(|text| {
+            report::since::compare(&text, &view.models)
+                .map_err(|message| Diagnostic::file(path.display().to_string(), message))
+        });
+        match compared {
+            Ok(since) => view.since_base = Some(since),
+            Err(d) => return Ok(report_problems(&[d], "nothing was checked")),
+        }
+    }
     let templates = match &args.templates {
         Some(dir) => Templates::with_overrides(dir)?,
         None => Templates::built_in(),

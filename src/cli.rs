@@ -31,6 +31,18 @@ pub enum Command {
         #[arg(value_enum)]
         format: SchemaFormat,
     },
+    /// Write a commented starter policy and print CI snippets that run the check and post the
+    /// report as a merge-request comment.
+    Init {
+        /// Where to write the starter policy.
+        #[arg(long, value_name = "FILE", default_value = "vetscore-policy.yaml")]
+        policy: PathBuf,
+        /// Overwrite the policy file if it exists.
+        #[arg(long)]
+        force: bool,
+    },
+    /// Rows a test split needs for a margin of error, and looks it can afford.
+    Plan(PlanArgs),
     /// Record holdout evaluations in the ledger, or verify its hash chain.
     Ledger {
         #[command(subcommand)]
@@ -58,6 +70,26 @@ pub enum LedgerAction {
         #[arg(long, value_name = "FILE", default_value = DEFAULT_LEDGER)]
         ledger: PathBuf,
     },
+}
+
+#[derive(Debug, clap::Args)]
+pub struct PlanArgs {
+    /// Rows in the test split: report its margin of error (and, with --margin, the looks it
+    /// can afford).
+    #[arg(long, value_name = "N")]
+    pub rows: Option<u64>,
+    /// Margin of error wanted, e.g. 0.02: report the rows needed.
+    #[arg(long, value_name = "E")]
+    pub margin: Option<f64>,
+    /// Planned looks at the test split, for the Bonferroni and Hoeffding figures.
+    #[arg(long, value_name = "K", default_value_t = 1)]
+    pub looks: u64,
+    /// Confidence level.
+    #[arg(long, value_name = "C", default_value_t = 0.95)]
+    pub confidence: f64,
+    /// Print JSON instead of text.
+    #[arg(long)]
+    pub json: bool,
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
@@ -96,6 +128,11 @@ pub struct CheckArgs {
     /// built-in ones; a template missing from DIR stays built in.
     #[arg(long, value_name = "DIR")]
     pub templates: Option<PathBuf>,
+
+    /// The base branch's JSON report: the Markdown gains a "since base" section with what
+    /// changed (scores, verdicts, findings, models added or removed).
+    #[arg(long, value_name = "REPORT")]
+    pub baseline: Option<PathBuf>,
 
     /// The base branch's policy file: changes that loosen the gate become findings, and the
     /// report shows the diff.

@@ -10,6 +10,7 @@ pub mod finding;
 pub mod input;
 pub mod ledger;
 pub mod manifest;
+pub mod plan;
 pub mod policy;
 pub mod report;
 pub mod rules;

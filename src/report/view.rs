@@ -28,6 +28,8 @@ pub struct View {
     pub notes: Vec<String>,
     /// The unified diff from the base branch's policy, when it differs.
     pub policy_diff: Option<PolicyDiff>,
+    /// What changed since the base branch's report, when one was given.
+    pub since_base: Option<super::since::SinceBase>,
     pub models: Vec<ModelView>,
 }
 
@@ -120,7 +122,7 @@ pub struct FindingView {
 }
 
 /// What a finding does to its model's verdict.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, JsonSchema)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, serde::Deserialize, JsonSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum Effect {
     /// It makes the model unsupported.
@@ -169,6 +171,7 @@ pub fn build(assessment: &Assessment, policy: &Policy, base_policy: Option<&Poli
         },
         notes: assessment.notes.clone(),
         policy_diff: base_policy.and_then(|base| policy_diff(base, policy)),
+        since_base: None,
         models,
     }
 }

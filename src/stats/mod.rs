@@ -38,6 +38,8 @@ pub use proportion::{
     two_proportion_z_test,
 };
 pub use rounding::{ceil_product, count_from_proportion};
-pub use sample_size::{cochran_rows, cochran_rows_ceil, hoeffding_margin, hoeffding_rows};
+pub use sample_size::{
+    cochran_rows, cochran_rows_ceil, hoeffding_margin, hoeffding_rows, hoeffding_rows_ceil,
+};
 pub use selection::{BiasEstimate, SelectionBias};
 pub use special::incomplete_beta;

@@ -42,6 +42,11 @@ pub fn hoeffding_rows(margin: f64, delta: f64, looks: u64) -> Result<f64> {
     Ok(ln_two_k_over_delta(delta, looks)? / (2.0 * margin * margin))
 }
 
+/// [`hoeffding_rows`] rounded up, without adding one for floating-point noise.
+pub fn hoeffding_rows_ceil(margin: f64, delta: f64, looks: u64) -> Result<u64> {
+    Ok(robust_ceil(hoeffding_rows(margin, delta, looks)?))
+}
+
 /// The inverse of [`hoeffding_rows`]: the margin ε = √(ln(2k/δ) / (2n)) guaranteed by n rows.
 /// Errors: rows = 0; δ not in (0, 1); looks = 0.
 pub fn hoeffding_margin(rows: u64, delta: f64, looks: u64) -> Result<f64> {

@@ -44,6 +44,7 @@ pub struct Report {
     pub policy: PolicyInfo,
     pub notes: Vec<String>,
     pub policy_diff: Option<serde_json::Value>,
+    pub since_base: Option<serde_json::Value>,
     pub models: Vec<ModelReport>,
 }
 

@@ -1,0 +1,199 @@
+//! "Since base": what changed against the base branch's JSON report — models added or removed,
+//! scores and intervals that moved, verdicts that changed, and findings that are new, resolved or
+//! still open.
+//!
+//! The base report is read with types of its own that keep only what the comparison needs, so
+//! a base report from this report version with extra fields still compares.
+
+use schemars::JsonSchema;
+use serde::{Deserialize, Serialize};
+
+use super::view::{Effect, EstimateView, ModelView, REPORT_VERSION};
+
+#[derive(Debug, Deserialize)]
+struct BaseReport {
+    report_version: u32,
+    verdict: String,
+    models: Vec<BaseModel>,
+}
+
+#[derive(Debug, Deserialize)]
+struct BaseModel {
+    name: String,
+    cv: Option<BaseEstimate>,
+    test: Option<BaseEstimate>,
+    verdict: String,
+    findings: Vec<BaseFinding>,
+}
+
+#[derive(Debug, Deserialize)]
+struct BaseEstimate {
+    value: f64,
+    lower: Option<f64>,
+    upper: Option<f64>,
+}
+
+#[derive(Debug, Deserialize)]
+struct BaseFinding {
+    rule: String,
+    status: String,
+    effect: Effect,
+}
+
+/// The comparison with the base branch's report.
+#[derive(Debug, Clone, Serialize, JsonSchema)]
+pub struct SinceBase {
+    pub base_verdict: String,
+    pub added: Vec<String>,
+    pub removed: Vec<String>,
+    pub moved: Vec<Moved>,
+    pub verdicts: Vec<VerdictChange>,
+    pub new_findings: Vec<FindingRef>,
+    pub resolved_findings: Vec<FindingRef>,
+    pub open_findings: Vec<FindingRef>,
+}
+
+/// A score or interval that moved.
+#[derive(Debug, Clone, Serialize, JsonSchema)]
+pub struct Moved {
+    pub model: String,
+    /// `cv` or `test`.
+    pub estimate: &'static str,
+    pub before: f64,
+    pub after: f64,
+    pub before_lower: Option<f64>,
+    pub before_upper: Option<f64>,
+    pub after_lower: Option<f64>,
+    pub after_upper: Option<f64>,
+}
+
+#[derive(Debug, Clone, Serialize, JsonSchema)]
+pub struct VerdictChange {
+    pub model: String,
+    pub before: String,
+    pub after: String,
+}
+
+/// A finding that blocks or warns, named by model and rule.
+#[derive(Debug, Clone, Serialize, JsonSchema)]
+pub struct FindingRef {
+    pub model: String,
+    pub rule: String,
+    pub status: String,
+}
+
+/// Compares this run's models with the base report's text; errors say what is wrong with it.
+pub fn compare(base_text: &str, models: &[ModelView]) -> Result<SinceBase, String> {
+    let base: BaseReport =
+        serde_json::from_str(base_text).map_err(|e| format!("not a vetscore JSON report: {e}"))?;
+    if base.report_version != REPORT_VERSION {
+        return Err(format!(
+            "expected report version {REPORT_VERSION}, found {}",
+            base.report_version
+        ));
+    }
+    let find = |name: &str| base.models.iter().find(|m| m.name == name);
+    let mut since = SinceBase {
+        base_verdict: base.verdict.clone(),
+        added: Vec::new(),
+        removed: base
+            .models
+            .iter()
+            .filter(|b| !models.iter().any(|m| m.name == b.name))
+            .map(|b| b.name.clone())
+            .collect(),
+        moved: Vec::new(),
+        verdicts: Vec::new(),
+        new_findings: Vec::new(),
+        resolved_findings: Vec::new(),
+        open_findings: Vec::new(),
+    };
+    for model in models {
+        let verdict = serde_json::to_value(model.verdict)
+            .ok()
+            .and_then(|v| v.as_str().map(str::to_owned))
+            .unwrap_or_default();
+        let Some(old) = find(&model.name) else {
+            since.added.push(model.name.clone());
+            continue;
+        };
+        for (estimate, before, after) in
+            [("cv", &old.cv, &model.cv), ("test", &old.test, &model.test)]
+        {
+            if let Some(m) = moved(&model.name, estimate, before.as_ref(), after.as_ref()) {
+                since.moved.push(m);
+            }
+        }
+        if old.verdict != verdict {
+            since.verdicts.push(VerdictChange {
+                model: model.name.clone(),
+                before: old.verdict.clone(),
+                after: verdict,
+            });
+        }
+        for f in &model.findings {
+            let was = old
+                .findings
+                .iter()
+                .find(|b| b.rule == f.rule)
+                .is_some_and(|b| b.effect != Effect::None);
+            let is = f.effect != Effect::None;
+            let status = serde_json::to_value(f.status)
+                .ok()
+                .and_then(|v| v.as_str().map(str::to_owned))
+                .unwrap_or_default();
+            let reference = FindingRef {
+                model: model.name.clone(),
+                rule: f.rule.to_owned(),
+                status,
+            };
+            match (was, is) {
+                (false, true) => since.new_findings.push(reference),
+                (true, true) => since.open_findings.push(reference),
+                (true, false) => since.resolved_findings.push(reference),
+                (false, false) => {}
+            }
+        }
+        // Rules that blocked or warned in the base report and no longer exist are resolved too.
+        for b in old.findings.iter().filter(|b| b.effect != Effect::None) {
+            if !model.findings.iter().any(|f| f.rule == b.rule) {
+                since.resolved_findings.push(FindingRef {
+                    model: model.name.clone(),
+                    rule: b.rule.clone(),
+                    status: b.status.clone(),
+                });
+            }
+        }
+    }
+    Ok(since)
+}
+
+fn moved(
+    model: &str,
+    estimate: &'static str,
+    before: Option<&BaseEstimate>,
+    after: Option<&EstimateView>,
+) -> Option<Moved> {
+    let (before, after) = (before?, after?);
+    let same = |a: Option<f64>, b: Option<f64>| match (a, b) {
+        (Some(a), Some(b)) => (a - b).abs() <= 1e-12,
+        (None, None) => true,
+        _ => false,
+    };
+    if same(Some(before.value), Some(after.value))
+        && same(before.lower, after.lower)
+        && same(before.upper, after.upper)
+    {
+        return None;
+    }
+    Some(Moved {
+        model: model.to_owned(),
+        estimate,
+        before: before.value,
+        after: after.value,
+        before_lower: before.lower,
+        before_upper: before.upper,
+        after_lower: after.lower,
+        after_upper: after.upper,
+    })
+}

@@ -1,0 +1,171 @@
+//! The merge-request pipeline commands: the "since base" comparison, `init` and `plan`.
+
+#![allow(clippy::unwrap_used)]
+
+mod common;
+
+use common::{assert_close, stderr, stdout, vetscore};
+
+const DEMO_POLICY: &str = "fixtures/demo/policy.yaml";
+
+fn check_json(manifests: &str, extra: &[&str], json: &std::path::Path) -> std::process::Output {
+    let mut args = vec![
+        "check",
+        "--policy",
+        DEMO_POLICY,
+        "--today",
+        "2026-12-01",
+        "--json",
+        json.to_str().unwrap(),
+    ];
+    args.extend_from_slice(extra);
+    args.push(manifests);
+    vetscore(&args)
+}
+
+#[test]
+fn since_base_lists_what_moved_what_resolved_and_what_was_removed() {
+    let dir = tempfile::tempdir().unwrap();
+    let base = dir.path().join("base.json");
+    check_json("fixtures/demo/manifests/*", &[], &base);
+
+    // The merge request: the logit claim is lowered to 0.91, the gbm model's test evaluation
+    // reads 871 of 1000 correct, and the 11-28 run (forest-v6) is no longer part of the check.
+    let mr = dir.path().join("mr");
+    std::fs::create_dir_all(mr.join("manifests")).unwrap();
+    std::fs::create_dir_all(mr.join("trials")).unwrap();
+    let root = common::root().join("fixtures/demo");
+    std::fs::copy(
+        root.join("trials/knn-small-trials.csv"),
+        mr.join("trials/knn-small-trials.csv"),
+    )
+    .unwrap();
+    let logit = std::fs::read_to_string(root.join("manifests/run-2026-11-30-logit.json"))
+        .unwrap()
+        .replace("\"value\": 0.93,", "\"value\": 0.91,");
+    std::fs::write(mr.join("manifests/run-2026-11-30-logit.json"), logit).unwrap();
+    let run = std::fs::read_to_string(root.join("manifests/run-2026-11-30.yaml"))
+        .unwrap()
+        .replace("score: 0.868, correct: 868", "score: 0.871, correct: 871");
+    std::fs::write(mr.join("manifests/run-2026-11-30.yaml"), run).unwrap();
+
+    let json = dir.path().join("mr.json");
+    let pattern = format!("{}/manifests/*", mr.display());
+    let out = check_json(&pattern, &["--baseline", base.to_str().unwrap()], &json);
+    assert_eq!(out.status.code(), Some(1), "{}", stderr(&out));
+    let report: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&json).unwrap()).unwrap();
+    let since = &report["since_base"];
+    assert_eq!(since["base_verdict"], "not_supported");
+    assert_eq!(since["removed"], serde_json::json!(["ripeness-forest-v6"]));
+    assert_eq!(since["added"], serde_json::json!([]));
+    let verdicts = since["verdicts"].as_array().unwrap();
+    assert!(verdicts.iter().any(|v| v["model"] == "ripeness-logit-v2"
+        && v["before"] == "not_supported"
+        && v["after"] == "supported"));
+    let moved = since["moved"].as_array().unwrap();
+    let gbm = moved
+        .iter()
+        .find(|m| m["model"] == "ripeness-gbm-v4" && m["estimate"] == "test")
+        .unwrap();
+    assert_eq!(gbm["before"], 0.868);
+    assert_eq!(gbm["after"], 0.871);
+    // 871/1000 Wilson 95%: statsmodels 0.15.0 proportion_confint(871, 1000, method='wilson').
+    assert_close(
+        "gbm after upper",
+        gbm["after_upper"].as_f64().unwrap(),
+        0.8904,
+        5e-5,
+    );
+    let resolved = since["resolved_findings"].as_array().unwrap();
+    assert!(
+        resolved
+            .iter()
+            .any(|f| f["model"] == "ripeness-logit-v2" && f["rule"] == "claim_support")
+    );
+    // Without forest-v6's two looks the shared split has four: forest-v7 still fails its budget.
+    let open = since["open_findings"].as_array().unwrap();
+    assert!(
+        open.iter()
+            .any(|f| f["model"] == "ripeness-forest-v7" && f["rule"] == "holdout_budget")
+    );
+}
+
+#[test]
+fn a_baseline_that_is_not_a_report_is_invalid_input() {
+    let out = vetscore(&[
+        "check",
+        "--baseline",
+        "fixtures/demo/policy.yaml",
+        "fixtures/scenarios/supported/manifest.yaml",
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(stderr(&out).contains("fixtures/demo/policy.yaml: not a vetscore JSON report"));
+}
+
+#[test]
+fn init_writes_the_default_policy_and_prints_the_shipped_ci_snippets() {
+    let dir = tempfile::tempdir().unwrap();
+    let policy = dir.path().join("vetscore-policy.yaml");
+    let out = vetscore(&["init", "--policy", policy.to_str().unwrap()]);
+    assert_eq!(out.status.code(), Some(0), "{}", stderr(&out));
+    let written = vetscore::policy::Policy::load(&policy).unwrap();
+    let defaults = vetscore::policy::Policy::defaults();
+    assert_eq!(
+        written.settings_for("any").0,
+        defaults.settings_for("any").0
+    );
+    assert_eq!(written.confidence, defaults.confidence);
+    let printed = stdout(&out);
+    for example in [
+        ".github/examples/vetscore.yml",
+        ".github/examples/vetscore.gitlab-ci.yml",
+    ] {
+        let text = std::fs::read_to_string(common::root().join(example)).unwrap();
+        assert!(printed.contains(&text), "init does not print {example}");
+        assert!(
+            text.contains("<!-- vetscore:report -->"),
+            "{example} must find the comment by the marker"
+        );
+    }
+    // A second run refuses to overwrite.
+    let again = vetscore(&["init", "--policy", policy.to_str().unwrap()]);
+    assert_eq!(again.status.code(), Some(2));
+    assert!(stderr(&again).contains("already exists"));
+}
+
+#[test]
+fn plan_matches_cochran_and_the_hoeffding_bound_worked_by_hand() {
+    let out = vetscore(&[
+        "plan", "--rows", "1000", "--margin", "0.05", "--looks", "10", "--json",
+    ]);
+    assert_eq!(out.status.code(), Some(0), "{}", stderr(&out));
+    let plan: serde_json::Value = serde_json::from_str(&stdout(&out)).unwrap();
+    // Cochran (1977): n0 = 1.96^2 * 0.25 / 0.05^2 = 384.16 -> 385 rows.
+    assert_eq!(plan["rows_cochran"], 385);
+    // Hoeffding (1963) with a union bound over k = 10 looks: n >= ln(2k/alpha) / (2 E^2)
+    // = ln(400) / 0.005 = 5.99146 / 0.005 = 1198.29 -> 1199 rows.
+    assert_eq!(plan["rows_hoeffding"], 1199);
+    // Margin for n = 1000 over 10 looks: sqrt(ln(400) / 2000) = sqrt(0.0029957) = 0.054733.
+    assert_close(
+        "hoeffding margin",
+        plan["margin_hoeffding"].as_f64().unwrap(),
+        0.054733283,
+        1e-8,
+    );
+    // Looks that keep +-0.05 on 1000 rows: 2k exp(-2 n E^2) <= alpha, k <= 0.025 e^5 = 3.71 -> 3.
+    assert_eq!(plan["looks_hoeffding"], 3);
+    // Bonferroni: z(1 - alpha/2k) * 0.5 / sqrt(1000) <= 0.05 needs z <= 3.16228; scipy 1.17.1
+    // norm.isf(0.05/62) = 3.15356 (k = 31 fits), norm.isf(0.05/64) = 3.16282 (k = 32 does not).
+    assert_eq!(plan["looks_bonferroni"], 31);
+    // One look: 1.959964 * sqrt(0.25 / 1000) = 0.0309898 (z from scipy 1.17.1 norm.isf(0.025)).
+    assert_close(
+        "normal margin",
+        plan["margin_normal"].as_f64().unwrap(),
+        0.030989752,
+        1e-8,
+    );
+
+    let none = vetscore(&["plan"]);
+    assert_eq!(none.status.code(), Some(2));
+}
