@@ -169,3 +169,82 @@ fn plan_matches_cochran_and_the_hoeffding_bound_worked_by_hand() {
     let none = vetscore(&["plan"]);
     assert_eq!(none.status.code(), Some(2));
 }
+
+#[test]
+fn the_readme_merge_request_story_holds() {
+    let dir = tempfile::tempdir().unwrap();
+    let base = dir.path().join("base.json");
+    let ledger = dir.path().join("vetscore-ledger.jsonl");
+    check_json("fixtures/demo/manifests/*", &[], &base);
+    let append = vetscore(&[
+        "ledger",
+        "append",
+        "--ledger",
+        ledger.to_str().unwrap(),
+        "fixtures/demo/manifests/*",
+    ]);
+    assert!(stdout(&append).contains("9 new entries"));
+    let json = dir.path().join("report.json");
+    let junit = dir.path().join("junit.xml");
+    let out = vetscore(&[
+        "check",
+        "--policy",
+        "fixtures/demo/merge-request/policy.yaml",
+        "--base-policy",
+        DEMO_POLICY,
+        "--baseline",
+        base.to_str().unwrap(),
+        "--ledger",
+        ledger.to_str().unwrap(),
+        "--today",
+        "2026-12-01",
+        "--json",
+        json.to_str().unwrap(),
+        "--junit",
+        junit.to_str().unwrap(),
+        "fixtures/demo/merge-request/manifests/*",
+    ]);
+    assert_eq!(out.status.code(), Some(1), "{}", stderr(&out));
+    let report: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&json).unwrap()).unwrap();
+    let since = &report["since_base"];
+    assert_eq!(since["added"], serde_json::json!(["ripeness-gbm-v5"]));
+    let resolved = since["resolved_findings"].as_array().unwrap();
+    for (model, rule) in [
+        ("ripeness-logit-v2", "claim_support"),
+        ("ripeness-forest-v7", "holdout_budget"),
+    ] {
+        assert!(
+            resolved
+                .iter()
+                .any(|f| f["model"] == model && f["rule"] == rule)
+        );
+    }
+    let forest = report["models"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|m| m["name"] == "ripeness-forest-v7")
+        .unwrap();
+    let change = forest["findings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|f| f["rule"] == "policy_change")
+        .unwrap();
+    assert_eq!(change["status"], "fail");
+    assert_eq!(change["severity"], "error");
+    assert!(
+        change["message"]
+            .as_str()
+            .unwrap()
+            .contains("rules.holdout_budget.max_evaluations: 3 → 6")
+    );
+    assert!(
+        report["policy_diff"]["text"]
+            .as_str()
+            .unwrap()
+            .contains("+    max_evaluations: 6")
+    );
+    assert!(junit.exists());
+}
