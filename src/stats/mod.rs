@@ -6,7 +6,10 @@
 //! (`special`), binomial tails and the best-of-N tail (`binomial`), sample-size bounds
 //! (`sample_size`), expected maxima of normals (`extremes`), a streaming histogram (`histogram`), the Tibshirani & Tibshirani
 //! selection bias (`selection`), the mean with a t interval (`mean`) and robust integer rounding
-//! (`rounding`).
+//! (`rounding`). Per-example evidence: metrics recomputed from streamed predictions with sklearn's
+//! conventions (`metrics`, on Welford moments in `moments`), ROC AUC with DeLong's variance
+//! (`delong`), paired tests — McNemar, paired accuracy difference, paired and corrected resampled
+//! t (`paired`) — and seeded bootstraps (`bootstrap`, on the portable generator in `rng`).
 //!
 //! Every public function validates its arguments and returns [`Result`]; the `statrs` calls that
 //! panic on NaN or loop forever on huge shapes are only reached with checked arguments, and the
@@ -16,23 +19,36 @@
 //! (scipy / statsmodels, written by `tests/reference/generate.py`).
 
 mod binomial;
+mod bootstrap;
+mod delong;
 mod error;
 mod extremes;
 mod histogram;
 mod mean;
+mod metrics;
+mod moments;
 mod normal_t;
+mod paired;
 mod proportion;
+mod rng;
 mod rounding;
 mod sample_size;
 mod selection;
 mod special;
 
 pub use binomial::{best_of_n_tail, binomial_sf_ge};
+pub use bootstrap::{DEFAULT_RESAMPLES, RegressionStatistic, bootstrap_confusion, bootstrap_rows};
+pub use delong::{AucEstimate, PairedAuc, roc_auc_delong, roc_auc_delong_paired};
 pub use error::{Result, StatsError};
 pub use extremes::{blom_expected_max, expected_max_normal};
 pub use histogram::{Bin, Histogram};
 pub use mean::{MeanEstimate, mean_t_interval};
+pub use metrics::{ConfusionMatrix, F1Average, LogLoss, MAX_CLASSES, RegressionErrors};
 pub use normal_t::{normal_sf, t_quantile, t_sf, z_two_sided};
+pub use paired::{
+    MCNEMAR_EXACT_BELOW, McNemar, PairedT, PairedTResult, corrected_resampled_t, mcnemar_auto,
+    mcnemar_chi2, mcnemar_exact, paired_accuracy_difference,
+};
 pub use proportion::{
     Interval, ProportionMethod, ZTest, newcombe_difference, proportion_interval,
     two_proportion_z_test,
