@@ -20,6 +20,10 @@ pub enum IntervalBasis {
     Proportion { method: ProportionMethod },
     /// A Student-t interval over per-fold scores.
     FoldMean { folds: usize },
+    /// Recomputed from the per-example predictions.
+    Predictions {
+        method: crate::evidence::metric::Method,
+    },
     /// No interval: the evidence needed is not in the manifest.
     Unavailable,
 }
@@ -43,6 +47,20 @@ pub struct Estimate {
 pub struct IntervalSettings {
     pub confidence: f64,
     pub method: ProportionMethod,
+    /// Bootstrap resamples and seed, for metrics recomputed from predictions.
+    pub resamples: u32,
+    pub seed: u64,
+}
+
+impl IntervalSettings {
+    pub fn evidence(self) -> crate::evidence::metric::Settings {
+        crate::evidence::metric::Settings {
+            confidence: self.confidence,
+            method: self.method,
+            resamples: self.resamples,
+            seed: self.seed,
+        }
+    }
 }
 
 /// The CV estimate of the selected configuration, if the manifest has a search.
@@ -100,8 +118,34 @@ fn fold_mean(cv: &CrossValidation, confidence: f64) -> Estimate {
     }
 }
 
-/// The test estimate from the last holdout evaluation, if there is one.
-pub fn test_estimate(model: &Model, settings: IntervalSettings) -> Option<Estimate> {
+/// The metric recomputed from predictions, or why it could not be.
+pub type Recomputation = Result<crate::evidence::metric::Recomputed, String>;
+
+/// Recomputes the model's metric from its predictions, when it has them.
+pub fn recompute(model: &Model, settings: IntervalSettings) -> Option<Recomputation> {
+    model.predictions.as_ref().map(|p| {
+        crate::evidence::metric::recompute(&p.set, model.metric, p.f1, settings.evidence())
+    })
+}
+
+/// The test estimate: recomputed from the predictions when the manifest has them (the
+/// recomputation rule checks it against the reported score), else from the last holdout
+/// evaluation.
+pub fn test_estimate(
+    model: &Model,
+    settings: IntervalSettings,
+    recomputed: Option<&Recomputation>,
+) -> Option<Estimate> {
+    if let Some(Ok(r)) = recomputed {
+        return Some(Estimate {
+            value: r.value,
+            interval: Some(r.interval),
+            basis: IntervalBasis::Predictions { method: r.method },
+            rows: r.rows,
+            correct: r.correct,
+            std_error: None,
+        });
+    }
     model
         .test_evaluation()
         .map(|e| evaluation_estimate(e, settings))

@@ -66,6 +66,8 @@ pub fn evaluate(
     let interval = IntervalSettings {
         confidence: policy.confidence,
         method: policy.interval_method,
+        resamples: policy.bootstrap_resamples,
+        seed: policy.seed,
     };
     let mut context = Context {
         confidence: policy.confidence,
@@ -117,10 +119,12 @@ fn assess(
     interval: IntervalSettings,
 ) -> ModelAssessment {
     let (settings, sources) = policy.settings_for(&model.name);
+    let recomputed = estimate::recompute(&model, interval);
     let subject = Subject {
         model: &model,
         cv: estimate::cv_estimate(&model, interval),
-        test: estimate::test_estimate(&model, interval),
+        test: estimate::test_estimate(&model, interval, recomputed.as_ref()),
+        recomputed,
     };
     let findings: Vec<Finding> = RULES
         .iter()

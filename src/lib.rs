@@ -6,6 +6,7 @@ pub mod cli;
 pub mod diag;
 pub mod estimate;
 pub mod evaluate;
+pub mod evidence;
 pub mod finding;
 pub mod input;
 pub mod ledger;

@@ -131,6 +131,10 @@ pub struct Origin {
 #[derive(Debug, Clone, PartialEq)]
 pub struct Model {
     pub name: String,
+    /// The predictions on the test split, when the manifest points at them.
+    pub predictions: Option<Predictions>,
+    /// What comparing the train and test id lists found, when both are given.
+    pub leakage: Option<crate::evidence::ids::Overlap>,
     pub origin: Origin,
     pub task: Task,
     pub metric: Metric,
@@ -223,6 +227,22 @@ pub struct Claim {
     pub value: f64,
     pub basis: Basis,
     pub text: Option<String>,
+    /// The claim says the model beats its baseline.
+    pub beats_baseline: bool,
+}
+
+/// A model's predictions, and its baseline's on the same rows.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Predictions {
+    pub set: crate::evidence::PredictionSet,
+    pub f1: raw::F1Mode,
+    pub baseline: Option<Baseline>,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct Baseline {
+    pub name: String,
+    pub set: crate::evidence::PredictionSet,
 }
 
 /// Reads and validates one manifest file.

@@ -66,6 +66,14 @@ pub struct RawModel {
     /// The score the team states for this model.
     #[schemars(with = "RawClaim")]
     pub claim: Spanned<RawClaim>,
+    /// Per-example predictions on the test split, to recompute the metric and its interval.
+    #[serde(default)]
+    #[schemars(with = "Option<RawPredictions>")]
+    pub predictions: Option<Spanned<RawPredictions>>,
+    /// The model the claim is compared with (e.g. the one in production), on the same rows.
+    #[serde(default)]
+    #[schemars(with = "Option<RawBaseline>")]
+    pub baseline: Option<Spanned<RawBaseline>>,
     /// Free-form information about the model; not read by any rule.
     #[serde(default)]
     pub metadata: Option<BTreeMap<String, serde_json::Value>>,
@@ -86,6 +94,52 @@ pub struct RawData {
     /// Rows per class label, when known.
     #[serde(default)]
     pub class_counts: Option<RawClassCounts>,
+    /// A file of training row ids, one per line, for the leakage check (relative to the manifest).
+    #[serde(default)]
+    pub train_ids_file: Option<String>,
+    /// A file of test row ids, one per line, for the leakage check (relative to the manifest).
+    #[serde(default)]
+    pub test_ids_file: Option<String>,
+}
+
+/// The model's predictions on the test split.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+#[schemars(rename = "Predictions")]
+pub struct RawPredictions {
+    /// CSV file, relative to this manifest (columns: docs/manifest.md).
+    pub file: String,
+    /// The class names; when given, a label outside this list is an error.
+    #[serde(default)]
+    pub classes: Option<Vec<String>>,
+    /// The positive class, for binary F1 and ROC AUC (default: `1` or `true` when the classes
+    /// are 0/1 or false/true).
+    #[serde(default)]
+    pub positive_class: Option<String>,
+    /// How F1 averages over classes (default: binary for two classes, macro otherwise).
+    #[serde(default)]
+    pub f1_average: Option<F1Mode>,
+}
+
+/// How F1 averages over classes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, JsonSchema)]
+#[serde(rename_all = "snake_case")]
+pub enum F1Mode {
+    Binary,
+    Macro,
+    Micro,
+}
+
+/// The model a "better than" claim is compared with.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+#[schemars(rename = "Baseline")]
+pub struct RawBaseline {
+    /// Name of the baseline model, for the report.
+    pub name: String,
+    /// Its predictions on the same test rows (same columns as the model's), relative to this
+    /// manifest.
+    pub predictions_file: String,
 }
 
 /// Rows per class label in each split.
@@ -191,4 +245,7 @@ pub struct RawClaim {
     /// The claim as written in the merge request.
     #[serde(default)]
     pub text: Option<String>,
+    /// The claim says the model beats its baseline (needs `baseline`).
+    #[serde(default)]
+    pub beats_baseline: bool,
 }

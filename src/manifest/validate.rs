@@ -110,7 +110,20 @@ impl Validator<'_> {
             .trained_at
             .as_deref()
             .and_then(|t| self.timestamp(place, &format!("{path}.trained_at"), t));
+        let id_files = (
+            raw.data.value.train_ids_file.clone(),
+            raw.data.value.test_ids_file.clone(),
+        );
         let data = self.data(&format!("{path}.data"), raw.data);
+        let leakage = self.leakage(place, &format!("{path}.data"), id_files);
+        let beats_baseline = raw.claim.value.beats_baseline;
+        let predictions = self.predictions(
+            path,
+            raw.task,
+            raw.predictions,
+            raw.baseline,
+            beats_baseline,
+        );
         let search = raw
             .search
             .and_then(|s| self.search(&format!("{path}.search"), raw.metric, data.as_ref(), s));
@@ -121,6 +134,8 @@ impl Validator<'_> {
         }
         Some(Model {
             name: raw.name,
+            predictions,
+            leakage,
             origin: Origin {
                 file: self.file.to_owned(),
                 line: place.line,
@@ -136,6 +151,144 @@ impl Validator<'_> {
             holdout,
             claim: claim?,
         })
+    }
+
+    /// A file named in the manifest, relative to the manifest's directory.
+    fn resolve(&self, name: &str) -> std::path::PathBuf {
+        Path::new(self.file)
+            .parent()
+            .unwrap_or(Path::new("."))
+            .join(name)
+    }
+
+    fn leakage(
+        &mut self,
+        place: Place,
+        path: &str,
+        (train, test): (Option<String>, Option<String>),
+    ) -> Option<crate::evidence::ids::Overlap> {
+        match (train, test) {
+            (Some(train), Some(test)) => {
+                let named = |key: &str| format!("{path}.{key} in {}", self.file);
+                match crate::evidence::ids::overlap(
+                    &self.resolve(&train),
+                    &named("train_ids_file"),
+                    &self.resolve(&test),
+                    &named("test_ids_file"),
+                ) {
+                    Ok(o) => Some(o),
+                    Err(d) => {
+                        self.out.push(d);
+                        None
+                    }
+                }
+            }
+            (None, None) => None,
+            _ => {
+                self.problem(
+                    place,
+                    &format!("{path}.train_ids_file"),
+                    "the leakage check needs both train_ids_file and test_ids_file",
+                );
+                None
+            }
+        }
+    }
+
+    fn predictions(
+        &mut self,
+        path: &str,
+        task: super::Task,
+        raw: Option<Spanned<super::raw::RawPredictions>>,
+        baseline: Option<Spanned<super::raw::RawBaseline>>,
+        beats_baseline: bool,
+    ) -> Option<super::Predictions> {
+        use crate::evidence::read::Expect;
+        let Some(spanned) = raw else {
+            if let Some(b) = baseline {
+                self.problem(
+                    Place::of(&b.referenced),
+                    &format!("{path}.baseline"),
+                    "a baseline needs the model's own predictions (`predictions`) to pair with",
+                );
+            } else if beats_baseline {
+                self.problem(
+                    Place::default(),
+                    &format!("{path}.claim.beats_baseline"),
+                    "a claim to beat the baseline needs `baseline` and `predictions`",
+                );
+            }
+            return None;
+        };
+        let place = Place::of(&spanned.referenced);
+        let p = spanned.value;
+        if let (Some(classes), Some(positive)) = (&p.classes, &p.positive_class)
+            && !classes.contains(positive) {
+                self.problem(
+                    place,
+                    &format!("{path}.predictions.positive_class"),
+                    format!("{positive:?} is not one of the listed classes"),
+                );
+                return None;
+            }
+        let named = format!("{path}.predictions.file in {}", self.file);
+        let expect = Expect {
+            task,
+            classes: p.classes.as_deref(),
+            positive: p.positive_class.as_deref(),
+            named_by: &named,
+        };
+        let set = match crate::evidence::read_predictions(&self.resolve(&p.file), expect) {
+            Ok(set) => set,
+            Err(problems) => {
+                self.out.extend(problems);
+                return None;
+            }
+        };
+        let classes = match &set.columns {
+            crate::evidence::Columns::Classification { classes, .. } => classes.len(),
+            crate::evidence::Columns::Regression { .. } => 0,
+        };
+        let f1 = p.f1_average.unwrap_or(if classes <= 2 {
+            super::raw::F1Mode::Binary
+        } else {
+            super::raw::F1Mode::Macro
+        });
+        let baseline = match baseline {
+            Some(b) => {
+                let named = format!("{path}.baseline.predictions_file in {}", self.file);
+                let expect = Expect {
+                    task,
+                    classes: p.classes.as_deref(),
+                    positive: p.positive_class.as_deref(),
+                    named_by: &named,
+                };
+                match crate::evidence::read_predictions(
+                    &self.resolve(&b.value.predictions_file),
+                    expect,
+                ) {
+                    Ok(bset) => Some(super::Baseline {
+                        name: b.value.name,
+                        set: bset,
+                    }),
+                    Err(problems) => {
+                        self.out.extend(problems);
+                        return None;
+                    }
+                }
+            }
+            None => {
+                if beats_baseline {
+                    self.problem(
+                        place,
+                        &format!("{path}.claim.beats_baseline"),
+                        "a claim to beat the baseline needs `baseline`",
+                    );
+                }
+                None
+            }
+        };
+        Some(super::Predictions { set, f1, baseline })
     }
 
     fn timestamp(&mut self, place: Place, path: &str, text: &str) -> Option<jiff::Timestamp> {
@@ -616,6 +769,7 @@ impl Validator<'_> {
             value: raw.value,
             basis: raw.basis,
             text: raw.text,
+            beats_baseline: raw.beats_baseline,
         })
     }
 }

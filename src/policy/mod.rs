@@ -51,6 +51,13 @@ pub struct RawPolicy {
     /// What a rule that lacks evidence does. Default `fail`.
     #[serde(default)]
     pub inconclusive: Option<Inconclusive>,
+    /// Bootstrap resamples for intervals recomputed from predictions (F1, balanced accuracy,
+    /// R²), between 100 and 1,000,000. Default 2000.
+    #[serde(default)]
+    pub bootstrap_resamples: Option<u32>,
+    /// Seed of every bootstrap, so a report can be reproduced. Default 1.
+    #[serde(default)]
+    pub seed: Option<u64>,
     /// Settings per rule id.
     #[serde(default)]
     #[schemars(with = "Option<RawRuleSettings>")]
@@ -103,6 +110,8 @@ pub struct Policy {
     pub confidence: f64,
     pub interval_method: ProportionMethod,
     pub inconclusive: Inconclusive,
+    pub bootstrap_resamples: u32,
+    pub seed: u64,
     base: RuleSettings,
     base_line: Option<u64>,
     base_touched: Vec<&'static str>,
@@ -147,6 +156,8 @@ impl Policy {
             confidence: 0.95,
             interval_method: ProportionMethod::Wilson,
             inconclusive: Inconclusive::Fail,
+            bootstrap_resamples: crate::stats::DEFAULT_RESAMPLES,
+            seed: 1,
             base: RuleSettings::default(),
             base_line: None,
             base_touched: Vec::new(),
@@ -258,6 +269,17 @@ pub fn validate(file: &str, raw: RawPolicy, digest: String) -> Result<Policy, Ve
             format!("expected a number between 0 and 1 (exclusive), found {confidence}"),
         ));
     }
+    let bootstrap_resamples = raw
+        .bootstrap_resamples
+        .unwrap_or(defaults.bootstrap_resamples);
+    if !(100..=1_000_000).contains(&bootstrap_resamples) {
+        out.push(Diagnostic::at(
+            file,
+            Place::default(),
+            "bootstrap_resamples",
+            format!("expected between 100 and 1000000, found {bootstrap_resamples}"),
+        ));
+    }
     let mut base = RuleSettings::default();
     let (base_touched, base_line) = match &raw.rules {
         Some(rules) => {
@@ -356,6 +378,8 @@ pub fn validate(file: &str, raw: RawPolicy, digest: String) -> Result<Policy, Ve
         confidence,
         interval_method: raw.interval_method.unwrap_or(defaults.interval_method),
         inconclusive: raw.inconclusive.unwrap_or_default(),
+        bootstrap_resamples,
+        seed: raw.seed.unwrap_or(defaults.seed),
         base,
         base_line,
         base_touched,

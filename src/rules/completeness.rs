@@ -32,6 +32,10 @@ pub enum Field {
     HoldoutTime,
     #[serde(rename = "claim.text")]
     ClaimText,
+    #[serde(rename = "predictions")]
+    Predictions,
+    #[serde(rename = "data.id_files")]
+    IdFiles,
 }
 
 impl Field {
@@ -49,6 +53,8 @@ impl Field {
             Field::Holdout => "holdout",
             Field::HoldoutTime => "holdout.time",
             Field::ClaimText => "claim.text",
+            Field::Predictions => "predictions",
+            Field::IdFiles => "data.id_files",
         }
     }
 
@@ -70,6 +76,8 @@ impl Field {
                 !model.holdout.is_empty() && model.holdout.iter().all(|e| e.time.is_some())
             }
             Field::ClaimText => model.claim.text.is_some(),
+            Field::Predictions => model.predictions.is_some(),
+            Field::IdFiles => model.leakage.is_some(),
         }
     }
 }

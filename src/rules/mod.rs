@@ -16,13 +16,17 @@ use crate::finding::{Evidence, Severity, Status};
 use crate::manifest::Model;
 use crate::stats::ProportionMethod;
 
+pub mod baseline_improvement;
 pub mod claim_support;
 pub mod completeness;
 pub mod cv_test_gap;
+pub mod fingerprint;
 pub mod fold_size;
 pub mod holdout_budget;
 pub mod interval_overlap;
+pub mod leakage;
 pub mod policy_change;
+pub mod recompute;
 pub mod selection_optimism;
 pub mod waiver_expiry;
 
@@ -252,6 +256,10 @@ all_settings!(
     selection_optimism,
     holdout_budget,
     fold_size,
+    recompute,
+    fingerprint,
+    leakage,
+    baseline_improvement,
     completeness,
     waiver_expiry,
     policy_change,
@@ -282,6 +290,8 @@ pub struct Subject<'a> {
     pub model: &'a Model,
     pub cv: Option<Estimate>,
     pub test: Option<Estimate>,
+    /// The metric recomputed from the predictions, when the manifest points at them.
+    pub recomputed: Option<crate::estimate::Recomputation>,
 }
 
 /// One scoring of a test split, as counted by the holdout budget.

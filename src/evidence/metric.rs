@@ -1,0 +1,434 @@
+//! The metric, its interval and paired comparisons, recomputed from predictions (pure).
+//!
+//! Intervals by metric: accuracy, a binomial interval on the count of correct rows (the
+//! policy's method); ROC AUC, DeLong et al. (1988) by the algorithm of Sun & Xu (2014); log loss
+//! and MAE, a Student-t interval over per-row losses; RMSE, the square root of a t interval on
+//! the mean squared error; balanced accuracy and F1, a seeded bootstrap that resamples the
+//! confusion-matrix counts; R², a seeded row bootstrap. Resample count and seed come from the
+//! policy, so a result is reproducible.
+
+use serde::Serialize;
+
+use super::{Columns, PredictionSet, pair_by_id};
+use crate::manifest::Metric;
+use crate::manifest::raw::F1Mode;
+use crate::stats::{self, ConfusionMatrix, F1Average, Interval, ProportionMethod};
+
+/// Interval settings from the policy.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Settings {
+    pub confidence: f64,
+    pub method: ProportionMethod,
+    pub resamples: u32,
+    pub seed: u64,
+}
+
+/// How a recomputed interval was obtained.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, schemars::JsonSchema)]
+#[serde(tag = "kind", rename_all = "snake_case")]
+pub enum Method {
+    Proportion { method: ProportionMethod },
+    DeLong,
+    RowMean,
+    Bootstrap { resamples: u32, seed: u64 },
+}
+
+/// The metric recomputed from predictions.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Recomputed {
+    pub value: f64,
+    pub interval: Interval,
+    pub method: Method,
+    pub rows: u64,
+    /// Correct rows, for accuracy.
+    pub correct: Option<u64>,
+}
+
+fn f1_average(mode: F1Mode, positive: Option<u32>) -> Result<F1Average, String> {
+    Ok(match mode {
+        F1Mode::Binary => F1Average::Binary {
+            positive: positive.ok_or("binary F1 needs `positive_class`")? as usize,
+        },
+        F1Mode::Macro => F1Average::Macro,
+        F1Mode::Micro => F1Average::Micro,
+    })
+}
+
+fn confusion(set: &PredictionSet) -> Result<ConfusionMatrix, String> {
+    let Columns::Classification {
+        classes,
+        actual,
+        predicted,
+        ..
+    } = &set.columns
+    else {
+        return Err("a classification metric needs a classification predictions file".into());
+    };
+    let predicted = predicted
+        .as_ref()
+        .ok_or("this metric needs a `prediction` column")?;
+    let mut m = ConfusionMatrix::new(classes.len().max(1)).map_err(|e| e.to_string())?;
+    for (&a, &p) in actual.iter().zip(predicted) {
+        m.push(a as usize, p as usize).map_err(|e| e.to_string())?;
+    }
+    Ok(m)
+}
+
+fn binary_scores(set: &PredictionSet) -> Result<(&[f64], Vec<bool>), String> {
+    let Columns::Classification {
+        classes,
+        actual,
+        score,
+        ..
+    } = &set.columns
+    else {
+        return Err("ROC AUC needs a classification predictions file".into());
+    };
+    if classes.len() != 2 {
+        return Err(format!(
+            "ROC AUC here is for two classes; the file has {}",
+            classes.len()
+        ));
+    }
+    let score = score.as_ref().ok_or("ROC AUC needs a `score` column")?;
+    let positive = set.positive.ok_or("ROC AUC needs `positive_class`")?;
+    Ok((score, actual.iter().map(|&a| a == positive).collect()))
+}
+
+/// Recomputes `metric` with its interval; `Err` says why it cannot be.
+pub fn recompute(
+    set: &PredictionSet,
+    metric: Metric,
+    f1: F1Mode,
+    s: Settings,
+) -> Result<Recomputed, String> {
+    let rows = set.rows() as u64;
+    let err = |e: stats::StatsError| e.to_string();
+    let bootstrap = Method::Bootstrap {
+        resamples: s.resamples,
+        seed: s.seed,
+    };
+    match metric {
+        Metric::Accuracy => {
+            let m = confusion(set)?;
+            let correct: u64 = (0..m.classes())
+                .map(|k| m.counts()[k * m.classes() + k])
+                .sum();
+            Ok(Recomputed {
+                value: m.accuracy().map_err(err)?,
+                interval: stats::proportion_interval(correct, m.total(), s.confidence, s.method)
+                    .map_err(err)?,
+                method: Method::Proportion { method: s.method },
+                rows,
+                correct: Some(correct),
+            })
+        }
+        Metric::BalancedAccuracy | Metric::F1 => {
+            let m = confusion(set)?;
+            let average = f1_average(f1, set.positive)?;
+            let statistic = |c: &ConfusionMatrix| {
+                if metric == Metric::F1 {
+                    c.f1(average)
+                } else {
+                    c.balanced_accuracy()
+                }
+            };
+            Ok(Recomputed {
+                value: statistic(&m).map_err(err)?,
+                interval: stats::bootstrap_confusion(
+                    &m,
+                    statistic,
+                    s.resamples,
+                    s.confidence,
+                    s.seed,
+                )
+                .map_err(err)?,
+                method: bootstrap,
+                rows,
+                correct: None,
+            })
+        }
+        Metric::RocAuc => {
+            let (scores, labels) = binary_scores(set)?;
+            let auc = stats::roc_auc_delong(scores, &labels, s.confidence).map_err(err)?;
+            Ok(Recomputed {
+                value: auc.auc,
+                interval: auc.interval,
+                method: Method::DeLong,
+                rows,
+                correct: None,
+            })
+        }
+        Metric::LogLoss => {
+            let Columns::Classification {
+                prob_true: Some(p), ..
+            } = &set.columns
+            else {
+                return Err("log loss needs probabilities: a `score` in [0, 1] for two classes, or `prob_<class>` columns".into());
+            };
+            let mut loss = stats::LogLoss::new();
+            for &v in p {
+                loss.push(v).map_err(err)?;
+            }
+            Ok(Recomputed {
+                value: loss.value().map_err(err)?,
+                interval: loss.interval(s.confidence).map_err(err)?,
+                method: Method::RowMean,
+                rows,
+                correct: None,
+            })
+        }
+        Metric::Rmse | Metric::Mae | Metric::R2 => {
+            let Columns::Regression { target, prediction } = &set.columns else {
+                return Err("a regression metric needs a regression predictions file".into());
+            };
+            let mut errors = stats::RegressionErrors::new();
+            for (&t, &y) in target.iter().zip(prediction) {
+                errors.push(t, y).map_err(err)?;
+            }
+            let (value, interval, method) = match metric {
+                Metric::Rmse => {
+                    let mse = errors.mse_interval(s.confidence).map_err(err)?;
+                    let interval = Interval {
+                        lower: mse.lower.max(0.0).sqrt(),
+                        upper: mse.upper.max(0.0).sqrt(),
+                    };
+                    (errors.rmse().map_err(err)?, interval, Method::RowMean)
+                }
+                Metric::Mae => (
+                    errors.mae().map_err(err)?,
+                    errors.mean_abs_error_interval(s.confidence).map_err(err)?,
+                    Method::RowMean,
+                ),
+                _ => {
+                    let pairs: Vec<(f64, f64)> = target
+                        .iter()
+                        .copied()
+                        .zip(prediction.iter().copied())
+                        .collect();
+                    (
+                        errors.r2().map_err(err)?,
+                        stats::bootstrap_rows(
+                            &pairs,
+                            stats::RegressionStatistic::R2,
+                            s.resamples,
+                            s.confidence,
+                            s.seed,
+                        )
+                        .map_err(err)?,
+                        bootstrap,
+                    )
+                }
+            };
+            Ok(Recomputed {
+                value,
+                interval,
+                method,
+                rows,
+                correct: None,
+            })
+        }
+    }
+}
+
+/// A paired comparison of a model with its baseline on the same rows (model − baseline, in the
+/// direction where positive is better).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Comparison {
+    /// Rows present in both files.
+    pub paired_rows: u64,
+    /// Ids found in only one of the two files.
+    pub unpaired: u64,
+    /// Rows whose true label or target differs between the two files.
+    pub label_mismatches: u64,
+    /// The improvement (model better than baseline when positive) and its interval.
+    pub improvement: f64,
+    pub interval: Interval,
+    pub p_value: f64,
+    pub test: &'static str,
+    /// McNemar's discordant counts: rows only the model gets right, rows only the baseline does.
+    pub discordant: Option<(u64, u64)>,
+}
+
+/// Compares the model with its baseline on their shared rows.
+pub fn compare(
+    model: &PredictionSet,
+    baseline: &PredictionSet,
+    metric: Metric,
+    confidence: f64,
+) -> Result<Comparison, String> {
+    let err = |e: stats::StatsError| e.to_string();
+    let (pairs, unpaired) = pair_by_id(model, baseline);
+    let mut comparison = Comparison {
+        paired_rows: pairs.len() as u64,
+        unpaired: unpaired as u64,
+        label_mismatches: 0,
+        improvement: 0.0,
+        interval: Interval {
+            lower: 0.0,
+            upper: 0.0,
+        },
+        p_value: 1.0,
+        test: "",
+        discordant: None,
+    };
+    if pairs.is_empty() {
+        return Err("the model and the baseline share no row ids".into());
+    }
+    match (&model.columns, &baseline.columns) {
+        (
+            Columns::Classification {
+                classes: ca,
+                actual: aa,
+                predicted: pa,
+                score: sa,
+                ..
+            },
+            Columns::Classification {
+                classes: cb,
+                actual: ab,
+                predicted: pb,
+                score: sb,
+                ..
+            },
+        ) => {
+            comparison.label_mismatches = pairs
+                .iter()
+                .filter(|&&(i, j)| ca[aa[i as usize] as usize] != cb[ab[j as usize] as usize])
+                .count() as u64;
+            match metric {
+                Metric::Accuracy => {
+                    let (pa, pb) = (
+                        pa.as_ref()
+                            .ok_or("McNemar's test needs the model's `prediction` column")?,
+                        pb.as_ref()
+                            .ok_or("McNemar's test needs the baseline's `prediction` column")?,
+                    );
+                    let (mut b, mut c) = (0u64, 0u64);
+                    for &(i, j) in &pairs {
+                        let right_a = pa[i as usize] == aa[i as usize];
+                        let right_b = pb[j as usize] == ab[j as usize];
+                        match (right_a, right_b) {
+                            (true, false) => b += 1,
+                            (false, true) => c += 1,
+                            _ => {}
+                        }
+                    }
+                    let test =
+                        stats::mcnemar_auto(b, c, stats::MCNEMAR_EXACT_BELOW).map_err(err)?;
+                    comparison.improvement = (b as f64 - c as f64) / pairs.len() as f64;
+                    comparison.interval =
+                        stats::paired_accuracy_difference(b, c, pairs.len() as u64, confidence)
+                            .map_err(err)?;
+                    comparison.p_value = test.p_value;
+                    comparison.test = if test.exact {
+                        "McNemar, exact binomial"
+                    } else {
+                        "McNemar, chi-square with continuity correction"
+                    };
+                    comparison.discordant = Some((b, c));
+                }
+                Metric::RocAuc => {
+                    let (sa, sb) = (
+                        sa.as_ref()
+                            .ok_or("DeLong's test needs the model's `score` column")?,
+                        sb.as_ref()
+                            .ok_or("DeLong's test needs the baseline's `score` column")?,
+                    );
+                    let positive = model.positive.ok_or("ROC AUC needs `positive_class`")?;
+                    let labels: Vec<bool> = pairs
+                        .iter()
+                        .map(|&(i, _)| aa[i as usize] == positive)
+                        .collect();
+                    let xa: Vec<f64> = pairs.iter().map(|&(i, _)| sa[i as usize]).collect();
+                    let xb: Vec<f64> = pairs.iter().map(|&(_, j)| sb[j as usize]).collect();
+                    let paired =
+                        stats::roc_auc_delong_paired(&xa, &xb, &labels, confidence).map_err(err)?;
+                    comparison.improvement = paired.difference;
+                    comparison.interval = paired.interval;
+                    comparison.p_value = paired.p_value;
+                    comparison.test = "DeLong, paired";
+                }
+                Metric::LogLoss => {
+                    let (
+                        Columns::Classification {
+                            prob_true: Some(qa),
+                            ..
+                        },
+                        Columns::Classification {
+                            prob_true: Some(qb),
+                            ..
+                        },
+                    ) = (&model.columns, &baseline.columns)
+                    else {
+                        return Err(
+                            "a paired log-loss test needs probabilities in both files".into()
+                        );
+                    };
+                    let result = paired_losses(
+                        &pairs,
+                        |i| -qa[i].max(1e-15).ln(),
+                        |j| -qb[j].max(1e-15).ln(),
+                        confidence,
+                    )?;
+                    fill_t(&mut comparison, result);
+                }
+                other => {
+                    return Err(format!(
+                        "no paired test for {} is implemented; compare on accuracy, ROC AUC or log loss",
+                        other.name()
+                    ));
+                }
+            }
+        }
+        (
+            Columns::Regression {
+                target: ta,
+                prediction: ya,
+            },
+            Columns::Regression {
+                target: tb,
+                prediction: yb,
+            },
+        ) => {
+            comparison.label_mismatches = pairs
+                .iter()
+                .filter(|&&(i, j)| ta[i as usize] != tb[j as usize])
+                .count() as u64;
+            let loss: fn(f64, f64) -> f64 = match metric {
+                Metric::Mae => |t, y| (t - y).abs(),
+                _ => |t, y| (t - y) * (t - y),
+            };
+            let result = paired_losses(
+                &pairs,
+                |i| loss(ta[i], ya[i]),
+                |j| loss(tb[j], yb[j]),
+                confidence,
+            )?;
+            fill_t(&mut comparison, result);
+        }
+        _ => return Err("the model and the baseline predictions are of different kinds".into()),
+    }
+    Ok(comparison)
+}
+
+/// Paired t on per-row loss differences, as baseline loss − model loss (positive is better).
+fn paired_losses(
+    pairs: &[(u32, u32)],
+    model_loss: impl Fn(usize) -> f64,
+    baseline_loss: impl Fn(usize) -> f64,
+    confidence: f64,
+) -> Result<stats::PairedTResult, String> {
+    let mut t = stats::PairedT::new();
+    for &(i, j) in pairs {
+        t.push(baseline_loss(j as usize) - model_loss(i as usize));
+    }
+    t.finish(confidence).map_err(|e| e.to_string())
+}
+
+fn fill_t(comparison: &mut Comparison, result: stats::PairedTResult) {
+    comparison.improvement = result.mean;
+    comparison.interval = result.interval;
+    comparison.p_value = result.p_value;
+    comparison.test = "paired t on per-row losses";
+}

@@ -1,0 +1,170 @@
+//! Per-example evidence: a model's predictions on the test split, and id lists for leakage.
+//!
+//! A predictions file is CSV with a header. Every file has an `id` column. Classification files
+//! have `label` (the true class) and any of `prediction` (the predicted class), `score` (binary:
+//! the score or probability of the positive class) and `prob_<class>` columns (multiclass
+//! probabilities). Regression files have `target` and `prediction`. Other columns are ignored.
+//!
+//! Rows are read in one streaming pass into compact columns: ids in one byte arena, classes as
+//! `u32` indices, scores as `f64`. The ids are kept because the test fingerprint needs them
+//! sorted and a baseline is paired with the model by id; nothing else is kept per row.
+
+pub mod ids;
+pub mod metric;
+pub mod read;
+
+pub use read::read_predictions;
+
+use sha2::{Digest, Sha256};
+
+/// Row ids stored back to back in one buffer.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct IdArena {
+    bytes: Vec<u8>,
+    ends: Vec<u32>,
+}
+
+impl IdArena {
+    /// Adds an id; `None` when the arena would pass 4 GiB.
+    pub fn push(&mut self, id: &[u8]) -> Option<()> {
+        let end = u32::try_from(self.bytes.len() + id.len()).ok()?;
+        self.bytes.extend_from_slice(id);
+        self.ends.push(end);
+        Some(())
+    }
+
+    pub fn len(&self) -> usize {
+        self.ends.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.ends.is_empty()
+    }
+
+    pub fn get(&self, i: usize) -> &[u8] {
+        let start = if i == 0 { 0 } else { self.ends[i - 1] as usize };
+        &self.bytes[start..self.ends[i] as usize]
+    }
+
+    /// Row indices in id order (byte order, which for UTF-8 is code-point order, as Python's
+    /// `sorted` on strings).
+    pub fn sorted_order(&self) -> Vec<u32> {
+        let mut order: Vec<u32> = (0..self.ends.len() as u32).collect();
+        order.sort_unstable_by(|&a, &b| self.get(a as usize).cmp(self.get(b as usize)));
+        order
+    }
+
+    /// The first id that appears twice, with both row indices, given the sorted order.
+    pub fn first_duplicate(&self, order: &[u32]) -> Option<(usize, usize)> {
+        order
+            .windows(2)
+            .find(|w| self.get(w[0] as usize) == self.get(w[1] as usize))
+            .map(|w| (w[0].min(w[1]) as usize, w[0].max(w[1]) as usize))
+    }
+
+    /// The test fingerprint: `sha256:` + the SHA-256 of the sorted ids joined by newlines.
+    /// In Python: `"sha256:" + hashlib.sha256("\n".join(sorted(ids)).encode()).hexdigest()`.
+    pub fn fingerprint(&self, order: &[u32]) -> String {
+        let mut hasher = Sha256::new();
+        for (k, &i) in order.iter().enumerate() {
+            if k > 0 {
+                hasher.update(b"\n");
+            }
+            hasher.update(self.get(i as usize));
+        }
+        let digest = hasher.finalize();
+        let mut out = String::from("sha256:");
+        for b in digest {
+            out.push_str(&format!("{b:02x}"));
+        }
+        out
+    }
+}
+
+/// What the predictions file holds for each row.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Columns {
+    Classification {
+        /// Class names; indices below refer to them.
+        classes: Vec<String>,
+        actual: Vec<u32>,
+        predicted: Option<Vec<u32>>,
+        /// Binary: score of the positive class (`positive` index).
+        score: Option<Vec<f64>>,
+        /// Probability given to the true class (from `score` in binary, `prob_<class>` otherwise).
+        prob_true: Option<Vec<f64>>,
+    },
+    Regression {
+        target: Vec<f64>,
+        prediction: Vec<f64>,
+    },
+}
+
+/// A model's predictions on the test split, read and checked.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PredictionSet {
+    pub file: String,
+    pub ids: IdArena,
+    pub columns: Columns,
+    /// Index of the positive class, for binary F1 and ROC AUC.
+    pub positive: Option<u32>,
+    /// `sha256:` hash of the sorted ids.
+    pub fingerprint: String,
+    /// Row indices in id order.
+    pub order: Vec<u32>,
+}
+
+impl PredictionSet {
+    pub fn rows(&self) -> usize {
+        self.ids.len()
+    }
+}
+
+/// Pairs the rows of two prediction sets by id: `(row in a, row in b)` for every id in both,
+/// and the count of ids found in only one of them.
+pub fn pair_by_id(a: &PredictionSet, b: &PredictionSet) -> (Vec<(u32, u32)>, usize) {
+    let (mut i, mut j) = (0, 0);
+    let mut pairs = Vec::with_capacity(a.rows().min(b.rows()));
+    let mut unmatched = 0;
+    while i < a.order.len() && j < b.order.len() {
+        let (ra, rb) = (a.order[i], b.order[j]);
+        match a.ids.get(ra as usize).cmp(b.ids.get(rb as usize)) {
+            std::cmp::Ordering::Equal => {
+                pairs.push((ra, rb));
+                i += 1;
+                j += 1;
+            }
+            std::cmp::Ordering::Less => {
+                unmatched += 1;
+                i += 1;
+            }
+            std::cmp::Ordering::Greater => {
+                unmatched += 1;
+                j += 1;
+            }
+        }
+    }
+    unmatched += (a.order.len() - i) + (b.order.len() - j);
+    (pairs, unmatched)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn fingerprint_is_the_hash_of_sorted_ids_joined_by_newlines() {
+        let mut ids = IdArena::default();
+        for id in ["b", "a", "c"] {
+            ids.push(id.as_bytes()).unwrap();
+        }
+        let order = ids.sorted_order();
+        // sha256 of the bytes "a\nb\nc", computed with Python 3.11 hashlib:
+        // hashlib.sha256(b"a\nb\nc").hexdigest()
+        assert_eq!(
+            ids.fingerprint(&order),
+            "sha256:ea7fb08b7a2dc4619ffb7c7bb38d95a2047935fa165d71b12efd3852a2e6d0cc"
+        );
+        assert_eq!(ids.first_duplicate(&order), None);
+    }
+}

@@ -1,0 +1,130 @@
+//! Improvement over baseline: "better than the baseline" needs a paired test on the same rows.
+
+use super::{Context, Outcome, RuleInfo, RuleSettings, Subject, rule_settings};
+use crate::evidence::metric::compare;
+use crate::finding::{Evidence, Quantity, Severity, Status};
+
+rule_settings! {
+    /// Settings of the improvement rule.
+    severity = Severity::Error;
+    /// Smallest improvement worth claiming, in the metric's units; the interval's lower bound
+    /// must exceed it.
+    min_improvement: f64 = 0.0, looser: Smaller,
+}
+
+pub const RULE: RuleInfo = RuleInfo {
+    id: "baseline_improvement",
+    name: "Improvement over baseline",
+    explanation: "A claim that the model beats its baseline (`claim.beats_baseline`) is checked \
+with a paired test on the rows both were scored on, matched by id: for accuracy McNemar's test \
+(McNemar 1947; exact binomial on the discordant pairs when there are fewer than 25, chi-square \
+with continuity correction otherwise) with the Agresti & Min (2005) interval for the difference \
+of paired proportions; for ROC AUC DeLong's paired test (DeLong, DeLong & Clarke-Pearson 1988); \
+for log loss, RMSE (squared error), MAE and R² a paired t-test on per-row loss differences. It \
+fails when the difference is not significant at the policy's confidence, when the interval's \
+lower bound does not exceed `min_improvement`, when ids are missing from either file, or when \
+the two files disagree on a row's true label. Two models scored on different rows cannot be \
+compared this way, and an unpaired comparison of two intervals is far less sensitive. Without a \
+claim to beat the baseline the rule is skipped.",
+    check,
+    severity_from_base: false,
+};
+
+pub fn problems(raw: &RawSettings) -> Vec<(String, String)> {
+    match raw.min_improvement {
+        Some(m) if !m.is_finite() => vec![(
+            "min_improvement".into(),
+            format!("expected a finite number, found {m}"),
+        )],
+        _ => Vec::new(),
+    }
+}
+
+fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
+    let min = settings.baseline_improvement.min_improvement;
+    let model = subject.model;
+    if !model.claim.beats_baseline {
+        return Outcome::new(
+            Status::Skipped,
+            "The claim does not say the model beats a baseline.",
+            Vec::new(),
+        );
+    }
+    let Some((p, baseline)) = model
+        .predictions
+        .as_ref()
+        .and_then(|p| p.baseline.as_ref().map(|b| (p, b)))
+    else {
+        return Outcome::inconclusive(
+            "The claim says the model beats its baseline, but no baseline predictions were read.",
+        );
+    };
+    let c = match compare(&p.set, &baseline.set, model.metric, ctx.confidence) {
+        Ok(c) => c,
+        Err(why) => {
+            return Outcome::inconclusive(format!(
+                "The paired comparison could not be made: {why}."
+            ));
+        }
+    };
+    let mut evidence = vec![
+        Evidence::text("baseline", "Baseline", baseline.name.clone()),
+        Evidence::text("test", "Paired test", c.test),
+        Evidence::count("paired_rows", "Rows in both files", c.paired_rows),
+        Evidence::count("unpaired", "Ids in only one file", c.unpaired),
+        Evidence::count(
+            "label_mismatches",
+            "Rows whose true label differs",
+            c.label_mismatches,
+        ),
+        Evidence::number(
+            "improvement",
+            "Improvement over the baseline",
+            c.improvement,
+            Quantity::Score,
+        ),
+        Evidence::interval(
+            "interval",
+            "Interval for the improvement",
+            c.interval,
+            ctx.confidence,
+        ),
+        Evidence::number("p_value", "p-value", c.p_value, Quantity::Probability),
+        Evidence::number(
+            "min_improvement",
+            "Smallest improvement worth claiming",
+            min,
+            Quantity::Score,
+        ),
+    ];
+    if let Some((b, d)) = c.discordant {
+        evidence.push(Evidence::count(
+            "model_only",
+            "Rows only the model gets right",
+            b,
+        ));
+        evidence.push(Evidence::count(
+            "baseline_only",
+            "Rows only the baseline gets right",
+            d,
+        ));
+    }
+    if c.unpaired > 0 || c.label_mismatches > 0 {
+        return Outcome::fail(
+            "The model and the baseline were not scored on the same rows: {unpaired} ids are in \
+             only one file and {label_mismatches} rows disagree on the true label.",
+            evidence,
+        );
+    }
+    let significant = c.p_value < 1.0 - ctx.confidence;
+    let meaningful = c.interval.lower > min;
+    Outcome::judge(
+        significant && meaningful && c.improvement > 0.0,
+        "On {paired_rows} paired rows the model improves on {baseline} by {improvement} \
+         (interval {interval}, p = {p_value}, {test}).",
+        "On {paired_rows} paired rows the improvement over {baseline} is {improvement} (interval \
+         {interval}, p = {p_value}, {test}): not enough to claim the model is better (the \
+         interval must lie above {min_improvement}).",
+        evidence,
+    )
+}
