@@ -1,0 +1,96 @@
+#!/usr/bin/env bash
+# Benchmark: per-example evidence on 10 million predictions and 10 million ids per side,
+# vetscore against the pandas + scikit-learn + statsmodels script a user would otherwise write
+# (benches/evidence_python.py). Checks both give the same numbers, then prints wall time and
+# peak memory of each, the input size and the ratios. Needs python3 with numpy, pandas,
+# scikit-learn and statsmodels; ROWS sets the size (default 10000000).
+#
+#   PYTHON=/tmp/vs-venv/bin/python bash scripts/bench_evidence.sh
+set -euo pipefail
+cd "$(dirname "$0")/.."
+PYTHON=${PYTHON:-python3}
+ROWS=${ROWS:-10000000}
+work=${WORK:-$(mktemp -d)}
+trap '[ -z "${WORK:-}" ] && rm -rf "$work"' EXIT
+
+cargo build --release --quiet --locked
+
+"$PYTHON" - "$work" "$ROWS" <<'PY'
+import hashlib, sys
+import numpy as np
+work, n = sys.argv[1], int(sys.argv[2])
+rng = np.random.default_rng(11)
+ids = np.char.add("row-", np.arange(n).astype(str))
+label = rng.integers(0, 2, n)
+model = np.where(rng.random(n) < 0.86, label, 1 - label)
+base = np.where(rng.random(n) < 0.85, label, 1 - label)
+names = np.array(["no", "yes"])
+def write(path, header, cols):
+    with open(path, "w") as f:
+        f.write(header + "\n")
+        for start in range(0, n, 1_000_000):
+            end = min(n, start + 1_000_000)
+            parts = [c[start:end] for c in cols]
+            f.write("\n".join(",".join(row) for row in zip(*parts)) + "\n")
+write(f"{work}/predictions.csv", "id,label,prediction", [ids, names[label], names[model]])
+order = rng.permutation(n)
+write(f"{work}/baseline.csv", "id,label,prediction", [ids[order], names[label][order], names[base][order]])
+with open(f"{work}/test_ids.txt", "w") as f:
+    f.write("\n".join(ids) + "\n")
+train = np.char.add("row-", (np.arange(n) + n - 1000).astype(str))  # 1000 ids shared
+with open(f"{work}/train_ids.txt", "w") as f:
+    f.write("\n".join(train) + "\n")
+acc = float((model == label).mean())
+correct = int((model == label).sum())
+fp = "sha256:" + hashlib.sha256("\n".join(sorted(ids.tolist())).encode()).hexdigest()
+open(f"{work}/manifest.yaml", "w").write(f"""format_version: 1
+models:
+  - name: bench
+    task: binary
+    metric: accuracy
+    data:
+      train_rows: {n}
+      test_rows: {n}
+      test_fingerprint: "{fp}"
+      train_ids_file: train_ids.txt
+      test_ids_file: test_ids.txt
+    holdout:
+      - {{time: 2026-11-01T10:00:00Z, score: {acc}, correct: {correct}}}
+    predictions: {{file: predictions.csv, classes: ["no", "yes"], positive_class: "yes"}}
+    baseline: {{name: previous, predictions_file: baseline.csv}}
+    claim: {{value: {round(acc, 3)}, basis: test, beats_baseline: true}}
+""")
+PY
+
+measure() { /usr/bin/time -f "%e %M" "$@" 2> "$work/time" > "$work/out" || true; tail -n 1 "$work/time"; }
+read -r rs_s rs_kb < <(measure target/release/vetscore check --today 2026-12-01 --json - "$work/manifest.yaml")
+cp "$work/out" "$work/vetscore.json"
+read -r py_s py_kb < <(measure "$PYTHON" benches/evidence_python.py "$work")
+cp "$work/out" "$work/python.json"
+
+"$PYTHON" - "$work" <<'PY'
+import json, sys
+work = sys.argv[1]
+py = json.load(open(f"{work}/python.json"))
+report = json.load(open(f"{work}/vetscore.json"))
+ev = {(f["rule"], e["key"]): e for f in report["models"][0]["findings"] for e in f["evidence"]}
+checks = {
+    "accuracy": (ev[("recompute", "recomputed")]["value"], py["accuracy"]),
+    "fingerprint": (ev[("fingerprint", "computed")]["value"], py["fingerprint"]),
+    "model-only rows": (ev[("baseline_improvement", "model_only")]["value"], py["b"]),
+    "baseline-only rows": (ev[("baseline_improvement", "baseline_only")]["value"], py["c"]),
+    "McNemar p": (ev[("baseline_improvement", "p_value")]["value"], py["p"]),
+    "shared ids": (ev[("leakage", "shared")]["value"], py["shared"]),
+}
+for name, (ours, theirs) in checks.items():
+    if isinstance(theirs, str):
+        assert ours == theirs, (name, ours, theirs)
+    else:
+        assert abs(ours - theirs) <= 1e-9 * max(1.0, abs(theirs)), (name, ours, theirs)
+print("same numbers: " + ", ".join(f"{k} {v[1]}" for k, v in checks.items() if k != "fingerprint"))
+PY
+size=$(du -cb "$work"/predictions.csv "$work"/baseline.csv "$work"/train_ids.txt "$work"/test_ids.txt | tail -n 1 | cut -f1)
+echo "input: $ROWS predictions per side and $ROWS ids per list, $((size / 1048576)) MiB"
+echo "vetscore: ${rs_s} s, peak $((rs_kb / 1024)) MiB"
+echo "python:   ${py_s} s, peak $((py_kb / 1024)) MiB"
+"$PYTHON" -c "print(f'ratio (python / vetscore): {float(\"$py_s\") / max(float(\"$rs_s\"), 0.001):.1f}x time, {float(\"$py_kb\") / float(\"$rs_kb\"):.1f}x memory; vetscore peak / input size: {float(\"$rs_kb\") * 1024 / float(\"$size\"):.2f}')"
