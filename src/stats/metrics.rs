@@ -339,8 +339,10 @@ fn check_finite_named(name: &'static str, value: f64) -> Result<()> {
 
 /// Streaming log loss (cross-entropy) with scikit-learn's clipping: each probability is clipped
 /// to [ε, 1 − ε] with ε = `f64::EPSILON` (2⁻⁵², `numpy.finfo(float64).eps`) before the log, as
-/// `sklearn.metrics.log_loss` does from version 1.5 on (its `eps` argument is gone). So a
-/// confident wrong answer costs −ln ε ≈ 36.04, not infinity. Memory: one running moment.
+/// `sklearn.metrics.log_loss` does in scikit-learn 1.9.1 (ε is the machine epsilon of the input's
+/// dtype; there is no `eps` argument). So a confident wrong answer costs −ln ε ≈ 36.04, not
+/// infinity. Rows are not renormalised (sklearn only warns when a row does not sum to 1).
+/// Memory: one running moment.
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct LogLoss {
     losses: Moments,
