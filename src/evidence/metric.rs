@@ -5,7 +5,8 @@
 //! and MAE, a Student-t interval over per-row losses; RMSE, the square root of a t interval on
 //! the mean squared error; balanced accuracy and F1, a seeded bootstrap that resamples the
 //! confusion-matrix counts; R², a seeded row bootstrap. Resample count and seed come from the
-//! policy, so a result is reproducible.
+//! policy, so a result is reproducible; the row bootstrap lowers its count for very large files
+//! ([`row_bootstrap_resamples`]) and the interval's method records the count used.
 
 use serde::Serialize;
 
@@ -42,6 +43,18 @@ pub struct Recomputed {
     pub rows: u64,
     /// Correct rows, for accuracy.
     pub correct: Option<u64>,
+}
+
+/// Row-bootstrap work is capped at this many row draws (about two seconds at ~10 ns a draw):
+/// above it the resample count is lowered, never below 100, and the report states the count used.
+const ROW_BOOTSTRAP_DRAWS: u64 = 200_000_000;
+
+/// The resamples a row bootstrap of `rows` rows uses: the policy's, or fewer for large files.
+pub fn row_bootstrap_resamples(wanted: u32, rows: u64) -> u32 {
+    let affordable = ROW_BOOTSTRAP_DRAWS / rows.max(1);
+    wanted
+        .min(u32::try_from(affordable).unwrap_or(u32::MAX))
+        .max(100)
 }
 
 fn f1_average(mode: F1Mode, positive: Option<u32>) -> Result<F1Average, String> {
@@ -206,17 +219,21 @@ pub fn recompute(
                         .copied()
                         .zip(prediction.iter().copied())
                         .collect();
+                    let resamples = row_bootstrap_resamples(s.resamples, rows);
                     (
                         errors.r2().map_err(err)?,
                         stats::bootstrap_rows(
                             &pairs,
                             stats::RegressionStatistic::R2,
-                            s.resamples,
+                            resamples,
                             s.confidence,
                             s.seed,
                         )
                         .map_err(err)?,
-                        bootstrap,
+                        Method::Bootstrap {
+                            resamples,
+                            seed: s.seed,
+                        },
                     )
                 }
             };
@@ -431,4 +448,18 @@ fn fill_t(comparison: &mut Comparison, result: stats::PairedTResult) {
     comparison.interval = result.interval;
     comparison.p_value = result.p_value;
     comparison.test = "paired t on per-row losses";
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn row_bootstrap_lowers_its_count_for_large_files_only() {
+        // 2e8 draws: 2000 resamples fit up to 100,000 rows; 1e6 rows afford 200; 1e7 rows get the
+        // floor of 100 (arithmetic on the documented cap).
+        assert_eq!(row_bootstrap_resamples(2000, 100_000), 2000);
+        assert_eq!(row_bootstrap_resamples(2000, 1_000_000), 200);
+        assert_eq!(row_bootstrap_resamples(2000, 10_000_000), 100);
+    }
 }

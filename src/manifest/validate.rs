@@ -223,14 +223,15 @@ impl Validator<'_> {
         let place = Place::of(&spanned.referenced);
         let p = spanned.value;
         if let (Some(classes), Some(positive)) = (&p.classes, &p.positive_class)
-            && !classes.contains(positive) {
-                self.problem(
-                    place,
-                    &format!("{path}.predictions.positive_class"),
-                    format!("{positive:?} is not one of the listed classes"),
-                );
-                return None;
-            }
+            && !classes.contains(positive)
+        {
+            self.problem(
+                place,
+                &format!("{path}.predictions.positive_class"),
+                format!("{positive:?} is not one of the listed classes"),
+            );
+            return None;
+        }
         let named = format!("{path}.predictions.file in {}", self.file);
         let expect = Expect {
             task,
