@@ -74,7 +74,7 @@ pub fn overlap(
             }
         }
     }
-    let order = test_ids.sorted_order();
+    let sorted = test_ids.sorted();
     let mut result = Overlap {
         train_ids: 0,
         test_ids: test_ids.len() as u64,
@@ -92,10 +92,7 @@ pub fn overlap(
                     continue;
                 }
                 result.train_ids += 1;
-                if order
-                    .binary_search_by(|&i| test_ids.get(i as usize).cmp(id))
-                    .is_ok()
-                {
+                if sorted.contains(id) {
                     result.shared += 1;
                     if result.examples.len() < SHOWN {
                         result

@@ -309,9 +309,14 @@ pub fn compare(
                 ..
             },
         ) => {
+            // The baseline's class indices, translated to the model's by name once.
+            let to_model: Vec<Option<u32>> = cb
+                .iter()
+                .map(|name| ca.iter().position(|c| c == name).map(|i| i as u32))
+                .collect();
             comparison.label_mismatches = pairs
                 .iter()
-                .filter(|&&(i, j)| ca[aa[i as usize] as usize] != cb[ab[j as usize] as usize])
+                .filter(|&&(i, j)| to_model[ab[j as usize] as usize] != Some(aa[i as usize]))
                 .count() as u64;
             match metric {
                 Metric::Accuracy => {

@@ -49,17 +49,60 @@ impl IdArena {
     /// Row indices in id order (byte order, which for UTF-8 is code-point order, as Python's
     /// `sorted` on strings).
     pub fn sorted_order(&self) -> Vec<u32> {
-        let mut order: Vec<u32> = (0..self.ends.len() as u32).collect();
-        order.sort_unstable_by(|&a, &b| self.get(a as usize).cmp(self.get(b as usize)));
-        order
+        self.sorted().keyed.into_iter().map(|(_, i)| i).collect()
     }
 
-    /// The first id that appears twice, with both row indices, given the sorted order.
-    pub fn first_duplicate(&self, order: &[u32]) -> Option<(usize, usize)> {
-        order
-            .windows(2)
-            .find(|w| self.get(w[0] as usize) == self.get(w[1] as usize))
-            .map(|w| (w[0].min(w[1]) as usize, w[0].max(w[1]) as usize))
+    /// The ids sorted, for fast lookups.
+    ///
+    /// Comparing ids through the arena is slow for millions of rows, so each id gets a key: the
+    /// 8 bytes after the prefix every id shares, big-endian and zero-padded. Ordering by key
+    /// agrees with byte order wherever keys differ; runs of equal keys are then sorted by their
+    /// full bytes.
+    pub fn sorted(&self) -> SortedIds<'_> {
+        let prefix = self.common_prefix();
+        let mut keyed: Vec<(u64, u32)> = (0..self.len())
+            .map(|i| (key(&self.get(i)[prefix..]), i as u32))
+            .collect();
+        keyed.sort_unstable_by_key(|&(k, _)| k);
+        let mut start = 0;
+        while start < keyed.len() {
+            let k = keyed[start].0;
+            let end = start
+                + keyed[start..]
+                    .iter()
+                    .take_while(|&&(kk, _)| kk == k)
+                    .count();
+            if end - start > 1 {
+                keyed[start..end]
+                    .sort_unstable_by(|a, b| self.get(a.1 as usize).cmp(self.get(b.1 as usize)));
+            }
+            start = end;
+        }
+        SortedIds {
+            arena: self,
+            prefix,
+            keyed,
+        }
+    }
+
+    fn common_prefix(&self) -> usize {
+        if self.is_empty() {
+            return 0;
+        }
+        let first = self.get(0);
+        let mut len = first.len();
+        for i in 1..self.len() {
+            let id = self.get(i);
+            len = first[..len]
+                .iter()
+                .zip(id)
+                .take_while(|(a, b)| a == b)
+                .count();
+            if len == 0 {
+                break;
+            }
+        }
+        len
     }
 
     /// The test fingerprint: `sha256:` + the SHA-256 of the sorted ids joined by newlines.
@@ -78,6 +121,57 @@ impl IdArena {
             out.push_str(&format!("{b:02x}"));
         }
         out
+    }
+}
+
+/// The 8 bytes at the start of `suffix`, big-endian, zero-padded.
+fn key(suffix: &[u8]) -> u64 {
+    let mut bytes = [0u8; 8];
+    let n = suffix.len().min(8);
+    bytes[..n].copy_from_slice(&suffix[..n]);
+    u64::from_be_bytes(bytes)
+}
+
+/// Ids in sorted order with their sort keys, for membership tests by binary search.
+pub struct SortedIds<'a> {
+    arena: &'a IdArena,
+    prefix: usize,
+    keyed: Vec<(u64, u32)>,
+}
+
+impl SortedIds<'_> {
+    /// The first id that appears twice, as (earlier row, later row). Only neighbours with equal
+    /// keys need their bytes compared.
+    pub fn first_duplicate(&self) -> Option<(usize, usize)> {
+        self.keyed
+            .windows(2)
+            .find(|w| {
+                w[0].0 == w[1].0
+                    && self.arena.get(w[0].1 as usize) == self.arena.get(w[1].1 as usize)
+            })
+            .map(|w| (w[0].1.min(w[1].1) as usize, w[0].1.max(w[1].1) as usize))
+    }
+
+    /// Row indices in id order.
+    pub fn order(&self) -> Vec<u32> {
+        self.keyed.iter().map(|&(_, i)| i).collect()
+    }
+
+    /// Whether `id` is among the ids.
+    pub fn contains(&self, id: &[u8]) -> bool {
+        if self.keyed.is_empty() || id.len() < self.prefix {
+            return false;
+        }
+        let shared = &self.arena.get(self.keyed[0].1 as usize)[..self.prefix];
+        if &id[..self.prefix] != shared {
+            return false;
+        }
+        let k = key(&id[self.prefix..]);
+        let start = self.keyed.partition_point(|&(kk, _)| kk < k);
+        self.keyed[start..]
+            .iter()
+            .take_while(|&&(kk, _)| kk == k)
+            .any(|&(_, i)| self.arena.get(i as usize) == id)
     }
 }
 
@@ -165,6 +259,41 @@ mod tests {
             ids.fingerprint(&order),
             "sha256:ea7fb08b7a2dc4619ffb7c7bb38d95a2047935fa165d71b12efd3852a2e6d0cc"
         );
-        assert_eq!(ids.first_duplicate(&order), None);
+        assert_eq!(ids.sorted().first_duplicate(), None);
+    }
+
+    #[test]
+    fn sorting_by_key_agrees_with_byte_order() {
+        // Ids sharing long prefixes, of unequal length, with bytes equal to the zero padding:
+        // the order must be plain byte order (what Python's `sorted` gives on these strings).
+        let words = [
+            "row-10",
+            "row-1",
+            "row-100000000",
+            "row-10000000\u{0}",
+            "row-2",
+            "row-1000000000",
+            "row-10000000",
+            "row-099999999",
+        ];
+        let mut ids = IdArena::default();
+        for w in words {
+            ids.push(w.as_bytes()).unwrap();
+        }
+        let sorted: Vec<&[u8]> = ids
+            .sorted_order()
+            .iter()
+            .map(|&i| ids.get(i as usize))
+            .collect();
+        let mut expected: Vec<&[u8]> = words.iter().map(|w| w.as_bytes()).collect();
+        expected.sort();
+        assert_eq!(sorted, expected);
+        let lookup = ids.sorted();
+        for w in words {
+            assert!(lookup.contains(w.as_bytes()));
+        }
+        for absent in ["row-3", "row-", "col-1", "row-10000000\u{0}\u{0}"] {
+            assert!(!lookup.contains(absent.as_bytes()), "{absent}");
+        }
     }
 }

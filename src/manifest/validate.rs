@@ -238,6 +238,7 @@ impl Validator<'_> {
             classes: p.classes.as_deref(),
             positive: p.positive_class.as_deref(),
             named_by: &named,
+            fingerprint: true,
         };
         let set = match crate::evidence::read_predictions(&self.resolve(&p.file), expect) {
             Ok(set) => set,
@@ -263,6 +264,7 @@ impl Validator<'_> {
                     classes: p.classes.as_deref(),
                     positive: p.positive_class.as_deref(),
                     named_by: &named,
+                    fingerprint: false,
                 };
                 match crate::evidence::read_predictions(
                     &self.resolve(&b.value.predictions_file),
