@@ -199,3 +199,22 @@ fn a_crash_exits_101_with_the_crash_message_never_0() {
         "{err}"
     );
 }
+
+#[test]
+fn a_file_name_cannot_forge_a_log_line() {
+    // A line break in a file name would start a new CI log line, which GitHub Actions reads as a
+    // workflow command (`::error ...::`); an escape character would drive the terminal.
+    let dir = tempfile::tempdir().unwrap();
+    let name = "run\n::error title=check::all claims supported\u{1b}[2K.yaml";
+    std::fs::write(dir.path().join(name), "format_version: 1\nmodels: []\n").unwrap();
+    let pattern = format!("{}/*.yaml", dir.path().display());
+    let output = vetscore(&["check", &pattern]);
+    let err = stderr(&output);
+    assert_eq!(output.status.code(), Some(2), "{err}");
+    assert!(!err.contains('\u{1b}'), "{err}");
+    assert!(
+        err.lines().all(|l| !l.starts_with("::")),
+        "a line starts a workflow command:\n{err}"
+    );
+    assert!(err.contains("run\\n::error title=check::all claims supported\\u{1b}[2K.yaml: models: expected at least one model"), "{err}");
+}
