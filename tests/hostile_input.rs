@@ -119,31 +119,24 @@ fn a_file_over_the_size_limit_is_refused_before_it_is_read() {
 }
 
 #[test]
-fn ten_thousand_nested_json_arrays_are_refused() {
+fn ten_thousand_nested_arrays_are_refused_in_json_and_yaml() {
     let dir = tempfile::tempdir().unwrap();
-    let path = dir.path().join("deep.json");
-    let depth = 10_000;
-    let text = format!(
-        "{{\"format_version\": 1, \"metadata\": {{\"x\": {}{}}}, \"models\": []}}",
-        "[".repeat(depth),
-        "]".repeat(depth)
-    );
-    std::fs::write(&path, text).unwrap();
-    rejects(&path, "the document exceeds the limit on nesting depth");
-}
-
-#[test]
-fn ten_thousand_nested_yaml_sequences_are_refused() {
-    let dir = tempfile::tempdir().unwrap();
-    let path = dir.path().join("deep.yaml");
-    let depth = 10_000;
-    let text = format!(
-        "format_version: 1\nmetadata:\n  x: {}{}\nmodels: []\n",
-        "[".repeat(depth),
-        "]".repeat(depth)
-    );
-    std::fs::write(&path, text).unwrap();
-    rejects(&path, "the document exceeds the limit on nesting depth");
+    let nested = format!("{}{}", "[".repeat(10_000), "]".repeat(10_000));
+    let cases = [
+        (
+            "deep.json",
+            format!("{{\"format_version\": 1, \"metadata\": {{\"x\": {nested}}}, \"models\": []}}"),
+        ),
+        (
+            "deep.yaml",
+            format!("format_version: 1\nmetadata:\n  x: {nested}\nmodels: []\n"),
+        ),
+    ];
+    for (name, text) in cases {
+        let path = dir.path().join(name);
+        std::fs::write(&path, text).unwrap();
+        rejects(&path, "the document exceeds the limit on nesting depth");
+    }
 }
 
 #[test]
