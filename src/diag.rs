@@ -55,9 +55,28 @@ impl Diagnostic {
     }
 }
 
+/// `text` with control characters (line breaks, escape) written as Rust escapes. File names and
+/// input text reach diagnostics; raw, a line break would start a new log line (which CI runners
+/// read as commands, such as GitHub's `::error::`) and an escape would drive the terminal.
+fn inert(text: &str) -> std::borrow::Cow<'_, str> {
+    if !text.chars().any(char::is_control) {
+        return text.into();
+    }
+    text.chars()
+        .map(|c| {
+            if c.is_control() {
+                c.escape_default().to_string()
+            } else {
+                c.to_string()
+            }
+        })
+        .collect::<String>()
+        .into()
+}
+
 impl fmt::Display for Diagnostic {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        write!(f, "{}", self.file)?;
+        write!(f, "{}", inert(&self.file))?;
         if let Some(line) = self.line {
             write!(f, ":{line}")?;
             if let Some(column) = self.column {
@@ -66,11 +85,11 @@ impl fmt::Display for Diagnostic {
         }
         write!(f, ": ")?;
         if let Some(path) = &self.path {
-            write!(f, "{path}: ")?;
+            write!(f, "{}: ", inert(path))?;
         }
-        write!(f, "{}", self.message)?;
+        write!(f, "{}", inert(&self.message))?;
         if let Some(help) = &self.help {
-            write!(f, "\n  help: {help}")?;
+            write!(f, "\n  help: {}", inert(help))?;
         }
         Ok(())
     }
@@ -196,6 +215,15 @@ mod tests {
         assert_eq!(closest("max_evaluation", keys), Some("max_evaluations"));
         assert_eq!(closest("severty", keys), Some("severity"));
         assert_eq!(closest("colour", keys), None);
+    }
+
+    #[test]
+    fn display_keeps_one_line_whatever_the_file_name() {
+        let d = Diagnostic::file("runs/a\n::error::forged\u{1b}[2K.yaml", "the file is empty");
+        assert_eq!(
+            d.to_string(),
+            "runs/a\\n::error::forged\\u{1b}[2K.yaml: the file is empty"
+        );
     }
 
     #[test]

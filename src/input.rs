@@ -92,6 +92,9 @@ pub fn io_reason(error: &std::io::Error) -> String {
 
 /// Parses `text` into `T`, reporting syntax and type errors with their position.
 pub fn parse<T: DeserializeOwned>(file: &str, text: &str, syntax: Syntax) -> Result<T, Diagnostic> {
+    if text.trim().is_empty() {
+        return Err(Diagnostic::file(file, "the file is empty"));
+    }
     if syntax == Syntax::Json
         && let Err(e) = serde_json::from_str::<serde::de::IgnoredAny>(text)
     {
@@ -116,6 +119,11 @@ pub fn parse<T: DeserializeOwned>(file: &str, text: &str, syntax: Syntax) -> Res
         if let Some(i) = message.find(", set DuplicateKeyPolicy") {
             message.truncate(i);
         }
+        if let Some(limit) = message.strip_prefix("budget breached: ") {
+            message = budget_message(limit);
+        } else if message == "recursion limit exceeded" {
+            message = "the document exceeds the limit on nesting depth".to_owned();
+        }
         // Type errors say what was expected; add what was found.
         if message.starts_with("invalid ")
             && let Some(token) = token_at(text, place)
@@ -130,11 +138,34 @@ pub fn parse<T: DeserializeOwned>(file: &str, text: &str, syntax: Syntax) -> Res
             message,
             help: None,
         };
+        if diagnostic.message.starts_with("the document exceeds") {
+            return diagnostic.with_help(
+                "anchors and aliases (`&a`, `*a`) can expand a small file enormously; write the values out and keep nesting shallow",
+            );
+        }
         match unknown_field_hint(&diagnostic.message) {
             Some(hint) => diagnostic.with_help(hint),
             None => diagnostic,
         }
     })
+}
+
+/// serde-saphyr reports a breached parsing budget as the `Debug` form of its limit, such as
+/// `Nodes { nodes: 250001 }`; this says it in words.
+fn budget_message(limit: &str) -> String {
+    let kind = limit.split([' ', '{']).next().unwrap_or(limit);
+    let count: String = limit.chars().filter(char::is_ascii_digit).collect();
+    let what = match kind {
+        "Nodes" => "nodes (values, after expanding aliases)",
+        "Depth" => "nesting depth",
+        "Aliases" => "aliases",
+        "Anchors" => "anchors",
+        "Events" => "parser events",
+        "ScalarBytes" => "text in scalars",
+        "Documents" => "documents",
+        _ => return format!("the document exceeds a parsing limit: {limit}"),
+    };
+    format!("the document exceeds the limit on {what}: {count} reached")
 }
 
 /// The scalar that starts at `place` in `text`, for messages.

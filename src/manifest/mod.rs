@@ -17,7 +17,7 @@ use serde::{Deserialize, Serialize};
 use crate::diag::Diagnostic;
 use crate::input::{self, Syntax};
 
-pub use validate::validate;
+pub use validate::{MAX_ROWS, validate};
 
 /// The manifest format version this build reads.
 pub const FORMAT_VERSION: u32 = 1;

@@ -23,6 +23,10 @@ use crate::stats::{BiasEstimate, Bin, Histogram, SelectionBias};
 /// Display bins of the trial-score histogram.
 pub const HISTOGRAM_BINS: usize = 16;
 
+/// Largest trials file read, in bytes: about ten million trials of ten folds. The file is
+/// streamed, so memory stays small, but reading is bounded in time as well.
+pub const MAX_TRIALS_BYTES: u64 = 1 << 30;
+
 /// Most problems reported from one trials source before giving up on it.
 const MAX_PROBLEMS: usize = 20;
 
@@ -329,16 +333,32 @@ pub fn read_file(
     folds: usize,
 ) -> Result<TrialSummary, Vec<Diagnostic>> {
     let shown = path.display().to_string();
-    let file = std::fs::File::open(path).map_err(|e| {
+    let refuse = |reason: String| {
         vec![Diagnostic::file(
             &shown,
-            format!(
-                "cannot read the trials file named by {named_by}: {}",
-                crate::input::io_reason(&e)
-            ),
+            format!("cannot read the trials file named by {named_by}: {reason}"),
         )]
-    })?;
+    };
+    let file = std::fs::File::open(path).map_err(|e| refuse(crate::input::io_reason(&e)))?;
+    // A directory, device or pipe would fail late, never end (`/dev/zero`) or wait for a
+    // writer; only a regular file of bounded size is read.
+    let metadata = file
+        .metadata()
+        .map_err(|e| refuse(crate::input::io_reason(&e)))?;
+    if metadata.is_dir() {
+        return Err(refuse("it is a directory".to_owned()));
+    }
+    if !metadata.is_file() {
+        return Err(refuse("it is not a regular file".to_owned()));
+    }
+    if metadata.len() > MAX_TRIALS_BYTES {
+        return Err(refuse(format!(
+            "it is {} bytes; the limit is {MAX_TRIALS_BYTES} bytes",
+            metadata.len()
+        )));
+    }
     let mut reader = TrialReader::new(&shown, metric, folds);
+    let file = LineLimit::new(file);
     match path.extension().and_then(|e| e.to_str()) {
         Some("jsonl" | "ndjson") => {
             reader.read_jsonl(std::io::BufReader::with_capacity(1 << 16, file))
@@ -346,4 +366,37 @@ pub fn read_file(
         _ => reader.read_csv(std::io::BufReader::with_capacity(1 << 16, file)),
     }
     reader.finish()
+}
+
+/// Longest line of a trials file, in bytes. A trial is one short line; the CSV and JSON Lines
+/// readers hold a whole line in memory, so a file without line breaks must not become one huge
+/// allocation.
+pub const MAX_LINE_BYTES: usize = 1 << 20;
+
+/// A reader that fails with `InvalidData` once a line runs longer than [`MAX_LINE_BYTES`].
+struct LineLimit<R> {
+    inner: R,
+    line: usize,
+}
+
+impl<R> LineLimit<R> {
+    fn new(inner: R) -> Self {
+        LineLimit { inner, line: 0 }
+    }
+}
+
+impl<R: std::io::Read> std::io::Read for LineLimit<R> {
+    fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
+        let n = self.inner.read(buf)?;
+        for &b in &buf[..n] {
+            self.line = if b == b'\n' { 0 } else { self.line + 1 };
+            if self.line > MAX_LINE_BYTES {
+                return Err(std::io::Error::new(
+                    std::io::ErrorKind::InvalidData,
+                    format!("a line is longer than {MAX_LINE_BYTES} bytes"),
+                ));
+            }
+        }
+        Ok(n)
+    }
 }

@@ -20,6 +20,11 @@ use crate::diag::{Diagnostic, Diagnostics, Place};
 /// half a unit of the fourth decimal of k/n (scores are commonly printed with four decimals).
 const PROPORTION_ROUNDING: f64 = 5e-5;
 
+/// Largest row count accepted, 2^53: every count is used in `f64` arithmetic by the statistics,
+/// and above 2^53 an `f64` no longer holds every integer. The limit also bounds the sums of fold
+/// and class counts, so they cannot overflow `u64` (validation sums in `u128`).
+pub const MAX_ROWS: u64 = 1 << 53;
+
 /// Validates a parsed manifest. `file` is used in diagnostics.
 pub fn validate(file: &str, raw: RawManifest) -> Result<Vec<Model>, Vec<Diagnostic>> {
     let mut out = Diagnostics::default();
@@ -316,20 +321,8 @@ impl Validator<'_> {
         let place = Place::of(&spanned.referenced);
         let raw = spanned.value;
         let before = self.out.len();
-        if raw.train_rows == 0 {
-            self.problem(
-                place,
-                &format!("{path}.train_rows"),
-                "expected at least 1 row, found 0",
-            );
-        }
-        if raw.test_rows == 0 {
-            self.problem(
-                place,
-                &format!("{path}.test_rows"),
-                "expected at least 1 row, found 0",
-            );
-        }
+        self.row_count(place, &format!("{path}.train_rows"), raw.train_rows);
+        self.row_count(place, &format!("{path}.test_rows"), raw.test_rows);
         if raw.test_fingerprint.trim().is_empty() {
             self.problem(
                 place,
@@ -360,9 +353,26 @@ impl Validator<'_> {
         })
     }
 
+    /// A split's row count: at least 1, at most [`MAX_ROWS`].
+    fn row_count(&mut self, place: Place, path: &str, rows: u64) {
+        if rows == 0 {
+            self.problem(place, path, "expected at least 1 row, found 0");
+        } else if rows > MAX_ROWS {
+            self.out.push(
+                Diagnostic::at(
+                    self.file,
+                    place,
+                    path,
+                    format!("expected at most {MAX_ROWS} rows, found {rows}"),
+                )
+                .with_help("row counts are used in floating-point statistics, which count exactly only up to 2^53"),
+            );
+        }
+    }
+
     fn class_sum(&mut self, place: Place, path: &str, counts: &BTreeMap<String, u64>, rows: u64) {
-        let sum: u64 = counts.values().sum();
-        if sum != rows {
+        let sum: u128 = counts.values().map(|&c| u128::from(c)).sum();
+        if sum != u128::from(rows) {
             self.problem(
                 place,
                 path,
@@ -552,11 +562,21 @@ impl Validator<'_> {
         folds: &[Fold],
         train_rows: u64,
     ) {
-        let total: u64 = folds.iter().map(|f| f.rows).sum();
-        let expected = train_rows * u64::from(repeats);
+        let total: u128 = folds.iter().map(|f| u128::from(f.rows)).sum();
+        let expected = u128::from(train_rows) * u128::from(repeats);
         let path = format!("{path}.folds");
-        if scheme == CvScheme::TimeOrdered {
-            if total > train_rows {
+        if total > u128::from(MAX_ROWS) {
+            self.out.push(
+                Diagnostic::at(
+                    self.file,
+                    place,
+                    path,
+                    format!("the folds hold {total} validation rows in all; the limit is {MAX_ROWS}"),
+                )
+                .with_help("row counts are used in floating-point statistics, which count exactly only up to 2^53"),
+            );
+        } else if scheme == CvScheme::TimeOrdered {
+            if total > u128::from(train_rows) {
                 self.problem(
                     place,
                     &path,

@@ -62,10 +62,26 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
         Evidence::count("small_folds", "Folds below the minimum", small_folds),
         Evidence::count("folds", "Folds", folds.len() as u64),
     ];
+    // A class absent from a fold's counts has no rows in that fold: writers often omit zero
+    // counts, and skipping the class would let a fold without any of it pass.
+    let classes: std::collections::BTreeSet<&str> = folds
+        .iter()
+        .filter_map(|f| f.class_rows.as_ref())
+        .flat_map(|c| c.keys())
+        .chain(
+            subject
+                .model
+                .data
+                .class_counts
+                .iter()
+                .flat_map(|c| c.train.keys()),
+        )
+        .map(String::as_str)
+        .collect();
     let smallest_class = folds
         .iter()
         .filter_map(|f| f.class_rows.as_ref())
-        .flat_map(|c| c.values().copied())
+        .flat_map(|c| classes.iter().map(|k| c.get(*k).copied().unwrap_or(0)))
         .min();
     if let Some(rows) = smallest_class {
         evidence.push(Evidence::count(
