@@ -1,8 +1,6 @@
 //! The application: load → validate → evaluate → report → write. The only module that touches
 //! the file system, the environment, the clock and the terminal.
 
-#![allow(clippy::print_stdout, clippy::print_stderr)]
-
 use std::io::{IsTerminal, Write};
 use std::path::{Path, PathBuf};
 
@@ -16,6 +14,22 @@ use crate::policy::Policy;
 use crate::report::templates::{self, Templates};
 use crate::report::{self, terminal, view};
 use crate::{evaluate, rules};
+
+/// Writes a line to standard output; a closed or broken pipe is an error the caller passes up
+/// (exit code 3), never a crash.
+macro_rules! outln {
+    ($($arg:tt)*) => {
+        writeln!(std::io::stdout().lock(), $($arg)*).context("writing to standard output")?
+    };
+}
+
+/// Writes a line to standard error. If even that fails there is nowhere left to report to; the
+/// exit code still tells what happened.
+macro_rules! errln {
+    ($($arg:tt)*) => {
+        let _ = writeln!(std::io::stderr().lock(), $($arg)*);
+    };
+}
 
 /// How a run ended; `main` turns it into the process exit code.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -52,12 +66,15 @@ pub fn run(cli: Cli) -> Result<Exit> {
                 SchemaFormat::Policy => crate::policy::schema(),
                 SchemaFormat::Report => report::schema(),
             };
-            println!("{}", serde_json::to_string_pretty(&schema)?);
+            outln!("{}", serde_json::to_string_pretty(&schema)?);
             Ok(Exit::Supported)
         }
         Command::Ledger { action } => ledger(action),
         Command::Init { policy, force } => init(&policy, force),
         Command::Plan(args) => plan(&args),
+        Command::CrashForTest => {
+            panic!("deliberate crash requested with `vetscore crash-for-test`")
+        }
     }
 }
 
@@ -78,9 +95,9 @@ fn init(policy: &Path, force: bool) -> Result<Exit> {
     }
     std::fs::write(policy, STARTER_POLICY)
         .with_context(|| format!("cannot write {}", policy.display()))?;
-    println!("Wrote the starter policy to {}.\n", policy.display());
-    println!("GitHub Actions (.github/workflows/vetscore.yml):\n\n{GITHUB_ACTIONS}");
-    println!("GitLab CI (.gitlab-ci.yml):\n\n{GITLAB_CI}");
+    outln!("Wrote the starter policy to {}.\n", policy.display());
+    outln!("GitHub Actions (.github/workflows/vetscore.yml):\n\n{GITHUB_ACTIONS}");
+    outln!("GitLab CI (.gitlab-ci.yml):\n\n{GITLAB_CI}");
     Ok(Exit::Supported)
 }
 
@@ -103,56 +120,71 @@ fn plan(args: &crate::cli::PlanArgs) -> Result<Exit> {
         }
     };
     if args.json {
-        println!("{}", serde_json::to_string_pretty(&plan)?);
+        outln!("{}", serde_json::to_string_pretty(&plan)?);
         return Ok(Exit::Supported);
     }
     let pct = report::format::confidence(plan.confidence);
     let k = plan.looks;
-    let line = |label: String, value: String| println!("  {label:<46} {value}");
+    let mut rows: Vec<(String, String)> = Vec::new();
+    let mut text = String::new();
+    let mut flush = |heading: String, rows: &mut Vec<(String, String)>| {
+        text.push_str(&heading);
+        text.push('\n');
+        for (label, value) in rows.drain(..) {
+            text.push_str(&format!("  {label:<46} {value}\n"));
+        }
+    };
     if let Some(n) = plan.rows {
-        println!("A test split of {n} rows, at {pct} confidence, accuracy near 0.5:");
         if let Some(m) = plan.margin_normal {
-            line("margin of error, one look".into(), format!("±{m:.4}"));
+            rows.push(("margin of error, one look".into(), format!("±{m:.4}")));
         }
         if let Some(m) = plan.margin_bonferroni {
-            line(
+            rows.push((
                 format!("margin over {k} looks (Bonferroni)"),
                 format!("±{m:.4}"),
-            );
+            ));
         }
         if let Some(m) = plan.margin_hoeffding {
-            line(
+            rows.push((
                 format!("margin over {k} looks (Hoeffding, any data)"),
                 format!("±{m:.4}"),
-            );
+            ));
         }
+        flush(
+            format!("A test split of {n} rows, at {pct} confidence, accuracy near 0.5:"),
+            &mut rows,
+        );
     }
     if let Some(e) = plan.margin {
-        println!("For a margin of ±{e} at {pct} confidence:");
         if let Some(r) = plan.rows_cochran {
-            line("rows needed, one look (Cochran)".into(), r.to_string());
+            rows.push(("rows needed, one look (Cochran)".into(), r.to_string()));
         }
         if let Some(r) = plan.rows_hoeffding {
-            line(
+            rows.push((
                 format!("rows needed over {k} looks (Hoeffding)"),
                 r.to_string(),
-            );
+            ));
         }
         if let Some(n) = plan.looks_bonferroni {
-            line("looks the split affords (Bonferroni)".into(), n.to_string());
+            rows.push(("looks the split affords (Bonferroni)".into(), n.to_string()));
         }
         if let Some(n) = plan.looks_hoeffding {
-            line("looks the split affords (Hoeffding)".into(), n.to_string());
+            rows.push(("looks the split affords (Hoeffding)".into(), n.to_string()));
         }
+        flush(
+            format!("For a margin of ±{e} at {pct} confidence:"),
+            &mut rows,
+        );
     }
+    write!(std::io::stdout().lock(), "{text}").context("writing to standard output")?;
     Ok(Exit::Supported)
 }
 
 fn report_problems(problems: &[Diagnostic], what: &str) -> Exit {
     for p in problems {
-        eprintln!("error: {p}");
+        errln!("error: {p}");
     }
-    eprintln!(
+    errln!(
         "vetscore: {} input problem{} found; {what}",
         problems.len(),
         if problems.len() == 1 { "" } else { "s" }
@@ -164,7 +196,7 @@ fn ledger(action: LedgerAction) -> Result<Exit> {
     match action {
         LedgerAction::Verify { ledger } => match crate::ledger::store::read(&ledger, false) {
             Ok(entries) => {
-                println!(
+                outln!(
                     "{}: {} entries, hash chain intact",
                     ledger.display(),
                     entries.len()
@@ -181,7 +213,7 @@ fn ledger(action: LedgerAction) -> Result<Exit> {
             }
             match crate::ledger::store::append(&ledger, &models)? {
                 Ok(added) => {
-                    println!("{}: {added} new entries recorded", ledger.display());
+                    outln!("{}: {added} new entries recorded", ledger.display());
                     Ok(Exit::Supported)
                 }
                 Err(d) => Ok(report_problems(&[d], "nothing was recorded")),
@@ -207,14 +239,14 @@ fn explain(rule: Option<&str>) -> Result<Exit> {
     match rule {
         None => {
             for r in rules::RULES {
-                println!("{:<18} {}", r.id, r.name);
+                outln!("{:<18} {}", r.id, r.name);
             }
-            println!("\nRun `vetscore explain RULE` for what a rule checks and why.");
+            outln!("\nRun `vetscore explain RULE` for what a rule checks and why.");
             Ok(Exit::Supported)
         }
         Some(id) => match rules::rule(id) {
             Some(r) => {
-                println!("{} ({})\n\n{}", r.name, r.id, r.explanation);
+                outln!("{} ({})\n\n{}", r.name, r.id, r.explanation);
                 Ok(Exit::Supported)
             }
             None => {
@@ -222,7 +254,7 @@ fn explain(rule: Option<&str>) -> Result<Exit> {
                 if let Some(c) = crate::diag::closest(id, rules::RULES.iter().map(|r| r.id)) {
                     d = d.with_help(format!("did you mean `{c}`?"));
                 }
-                eprintln!("error: {d}");
+                errln!("error: {d}");
                 Ok(Exit::InvalidInput)
             }
         },
@@ -301,10 +333,19 @@ fn check(args: &CheckArgs) -> Result<Exit> {
     let no_color = std::env::var_os("NO_COLOR").is_some_and(|v| !v.is_empty());
     if markdown_to_stdout || args.json.as_deref() == Some(Path::new("-")) {
         let color = std::io::stderr().is_terminal() && !no_color;
-        eprint!("{}", terminal::render(&view, color));
+        let _ = write!(
+            std::io::stderr().lock(),
+            "{}",
+            terminal::render(&view, color)
+        );
     } else {
         let color = std::io::stdout().is_terminal() && !no_color;
-        print!("{}", terminal::render(&view, color));
+        write!(
+            std::io::stdout().lock(),
+            "{}",
+            terminal::render(&view, color)
+        )
+        .context("writing the terminal summary")?;
     }
     Ok(match assessment.verdict {
         Verdict::NotSupported => Exit::NotSupported,

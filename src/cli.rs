@@ -43,6 +43,9 @@ pub enum Command {
     },
     /// Rows a test split needs for a margin of error, and looks it can afford.
     Plan(PlanArgs),
+    /// Crash on purpose, so tests can check that a crash never exits 0 (hidden from help).
+    #[command(hide = true)]
+    CrashForTest,
     /// Record holdout evaluations in the ledger, or verify its hash chain.
     Ledger {
         #[command(subcommand)]

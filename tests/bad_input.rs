@@ -48,7 +48,7 @@ fn every_bad_input_is_rejected_with_its_expected_messages() {
         .collect();
     cases.sort();
     assert!(
-        cases.len() >= 20,
+        cases.len() >= 50,
         "the corpus shrank to {} cases",
         cases.len()
     );

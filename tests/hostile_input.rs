@@ -173,8 +173,17 @@ fn an_unreadable_file_is_an_input_error() {
 
 #[test]
 fn a_crash_exits_101_with_the_crash_message_never_0() {
-    // The terminal summary is printed with `print!`, which panics when stdout is a closed pipe:
-    // a real crash path of the binary, used here to check how a crash ends.
+    let output = vetscore(&["crash-for-test"]);
+    let err = stderr(&output);
+    assert_eq!(output.status.code(), Some(101), "{err}");
+    assert!(
+        err.contains("vetscore crashed: this is a bug in vetscore, not a verdict on your models."),
+        "{err}"
+    );
+}
+
+#[test]
+fn a_closed_stdout_is_a_failure_to_finish_not_a_crash_and_not_a_pass() {
     let (reader, writer) = std::io::pipe().unwrap();
     drop(reader);
     let output = Command::new(env!("CARGO_BIN_EXE_vetscore"))
@@ -186,9 +195,9 @@ fn a_crash_exits_101_with_the_crash_message_never_0() {
         .output()
         .unwrap();
     let err = stderr(&output);
-    assert_eq!(output.status.code(), Some(101), "{err}");
+    assert_eq!(output.status.code(), Some(3), "{err}");
     assert!(
-        err.contains("vetscore crashed: this is a bug in vetscore, not a verdict on your models."),
+        err.contains("vetscore could not finish: writing the terminal summary"),
         "{err}"
     );
 }

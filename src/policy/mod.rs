@@ -20,6 +20,10 @@ use crate::input::{self, Syntax};
 use crate::rules::{self, RawRuleSettings, RuleSettings};
 use crate::stats::ProportionMethod;
 
+/// Rules a waiver may not cover: waiving them would hide the reminder about other expired
+/// waivers, or let a merge request excuse its own policy change.
+const UNWAIVABLE: &[&str] = &["waiver_expiry", "policy_change"];
+
 /// The policy format version this build reads.
 pub const FORMAT_VERSION: u32 = 1;
 
@@ -334,6 +338,19 @@ pub fn validate(file: &str, raw: RawPolicy, digest: String) -> Result<Policy, Ve
                 d = d.with_help(format!("did you mean `{c}`?"));
             }
             out.push(d);
+        }
+        if UNWAIVABLE.contains(&w.rule.as_str()) {
+            out.push(
+                Diagnostic::at(
+                    file,
+                    place,
+                    format!("{path}.rule"),
+                    format!("rule {} cannot be waived", w.rule),
+                )
+                .with_help(
+                    "waiver_expiry and policy_change guard the waivers and the policy themselves",
+                ),
+            );
         }
         if w.reason.trim().is_empty() {
             out.push(Diagnostic::at(

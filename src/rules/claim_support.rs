@@ -9,6 +9,9 @@ rule_settings! {
     severity = Severity::Error;
     /// Whether a claim may rest on cross-validation alone.
     allow_cv_claims: bool = true, looser: True,
+    /// Fewest rows the evidence behind a claim may rest on; an interval from fewer rows is too
+    /// wide to support anything.
+    min_rows: u64 = 30, looser: Smaller,
 }
 
 pub const RULE: RuleInfo = RuleInfo {
@@ -20,15 +23,19 @@ score (for accuracy a binomial interval on the count of correct rows, by the pol
 `interval_method`: Wilson 1927 by default, or Clopper–Pearson 1934, Agresti–Coull 1998, \
 Jeffreys as in Brown, Cai & DasGupta 2001). A claim above the interval overstates the model; a \
 claim below it understates it and is also flagged, because the stated number does not describe \
-the evidence. A claim with basis `cv` must lie inside the cross-validation interval; because it \
+the evidence. The evidence must also hold at least `min_rows` rows: a claim on a handful of test \
+rows lies inside an interval so wide that it says nothing. A claim with basis `cv` must lie inside the cross-validation interval; because it \
 rests on the best of many configurations, the selection-optimism rule also judges it after \
 adjusting for the search, and the policy may forbid such claims with `allow_cv_claims: false`.",
     check,
     severity_from_base: false,
 };
 
-pub fn problems(_raw: &RawSettings) -> Vec<(String, String)> {
-    Vec::new()
+pub fn problems(raw: &RawSettings) -> Vec<(String, String)> {
+    match raw.min_rows {
+        Some(0) => vec![("min_rows".into(), "expected at least 1 row, found 0".into())],
+        _ => Vec::new(),
+    }
 }
 
 fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
@@ -79,6 +86,23 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
         interval,
         ctx.confidence,
     ));
+    evidence.push(Evidence::count(
+        "rows",
+        "Rows behind the estimate",
+        estimate.rows,
+    ));
+    evidence.push(Evidence::count(
+        "min_rows",
+        "Fewest rows accepted",
+        settings.min_rows,
+    ));
+    if estimate.rows < settings.min_rows {
+        return Outcome::fail(
+            "The claimed {claim} rests on only {rows} rows, fewer than the {min_rows} the policy \
+             accepts: their interval {interval} is too wide to support a claim.",
+            evidence,
+        );
+    }
     let inside = interval.contains(claim.value);
     let higher = claim.value > interval.upper;
     let overstates = if subject.model.metric.higher_is_better() {
