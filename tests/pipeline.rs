@@ -44,9 +44,14 @@ fn since_base_lists_what_moved_what_resolved_and_what_was_removed() {
         .unwrap()
         .replace("\"value\": 0.93,", "\"value\": 0.91,");
     std::fs::write(mr.join("manifests/run-2026-11-30-logit.json"), logit).unwrap();
+    // And the knn model is scored on a new test split.
     let run = std::fs::read_to_string(root.join("manifests/run-2026-11-30.yaml"))
         .unwrap()
-        .replace("score: 0.868, correct: 868", "score: 0.871, correct: 871");
+        .replace("score: 0.868, correct: 868", "score: 0.871, correct: 871")
+        .replace(
+            "sha256:b83f0e6a1d4c97e25f0a3b8c6d1e4f79a2c5b0e8d7f3a6c9b1e4d2a7f05c8e31",
+            "sha256:5d0c0ffee0000000000000000000000000000000000000000000000000000000",
+        );
     std::fs::write(mr.join("manifests/run-2026-11-30.yaml"), run).unwrap();
 
     let json = dir.path().join("mr.json");
@@ -83,6 +88,9 @@ fn since_base_lists_what_moved_what_resolved_and_what_was_removed() {
             .iter()
             .any(|f| f["model"] == "ripeness-logit-v2" && f["rule"] == "claim_support")
     );
+    let splits = since["split_changes"].as_array().unwrap();
+    assert_eq!(splits.len(), 1);
+    assert_eq!(splits[0]["model"], "ripeness-knn-small");
     // Without forest-v6's two looks the shared split has four: forest-v7 still fails its budget.
     let open = since["open_findings"].as_array().unwrap();
     assert!(

@@ -43,6 +43,34 @@ fn clean(line: &[u8]) -> &[u8] {
     line.trim_ascii()
 }
 
+/// Calls `each` with every id in a list file, in order; an error from `each` stops the read.
+fn for_each_id(
+    path: &Path,
+    named_by: &str,
+    mut each: impl FnMut(&[u8]) -> Result<(), Diagnostic>,
+) -> Result<(), Diagnostic> {
+    let mut reader = open(path, named_by)?;
+    let mut line = Vec::new();
+    loop {
+        line.clear();
+        match reader.read_until(b'\n', &mut line) {
+            Ok(0) => return Ok(()),
+            Ok(_) => {
+                let id = clean(&line);
+                if !id.is_empty() {
+                    each(id)?;
+                }
+            }
+            Err(e) => {
+                return Err(Diagnostic::file(
+                    path.display().to_string(),
+                    format!("cannot read: {e}"),
+                ));
+            }
+        }
+    }
+}
+
 /// Compares a train id list with a test id list.
 pub fn overlap(
     train: &Path,
@@ -51,29 +79,11 @@ pub fn overlap(
     test_named_by: &str,
 ) -> Result<Overlap, Diagnostic> {
     let mut test_ids = IdArena::default();
-    let mut reader = open(test, test_named_by)?;
-    let mut line = Vec::new();
-    loop {
-        line.clear();
-        match reader.read_until(b'\n', &mut line) {
-            Ok(0) => break,
-            Ok(_) => {
-                let id = clean(&line);
-                if !id.is_empty() && test_ids.push(id).is_none() {
-                    return Err(Diagnostic::file(
-                        test.display().to_string(),
-                        "the test ids exceed 4 GiB",
-                    ));
-                }
-            }
-            Err(e) => {
-                return Err(Diagnostic::file(
-                    test.display().to_string(),
-                    format!("cannot read: {e}"),
-                ));
-            }
-        }
-    }
+    for_each_id(test, test_named_by, |id| {
+        test_ids.push(id).ok_or_else(|| {
+            Diagnostic::file(test.display().to_string(), "the test ids exceed 4 GiB")
+        })
+    })?;
     let sorted = test_ids.sorted();
     let mut result = Overlap {
         train_ids: 0,
@@ -81,33 +91,17 @@ pub fn overlap(
         shared: 0,
         examples: Vec::new(),
     };
-    let mut reader = open(train, train_named_by)?;
-    loop {
-        line.clear();
-        match reader.read_until(b'\n', &mut line) {
-            Ok(0) => break,
-            Ok(_) => {
-                let id = clean(&line);
-                if id.is_empty() {
-                    continue;
-                }
-                result.train_ids += 1;
-                if sorted.contains(id) {
-                    result.shared += 1;
-                    if result.examples.len() < SHOWN {
-                        result
-                            .examples
-                            .push(String::from_utf8_lossy(id).into_owned());
-                    }
-                }
-            }
-            Err(e) => {
-                return Err(Diagnostic::file(
-                    train.display().to_string(),
-                    format!("cannot read: {e}"),
-                ));
+    for_each_id(train, train_named_by, |id| {
+        result.train_ids += 1;
+        if sorted.contains(id) {
+            result.shared += 1;
+            if result.examples.len() < SHOWN {
+                result
+                    .examples
+                    .push(String::from_utf8_lossy(id).into_owned());
             }
         }
-    }
+        Ok(())
+    })?;
     Ok(result)
 }

@@ -1,6 +1,6 @@
 //! "Since base": what changed against the base branch's JSON report — models added or removed,
-//! scores and intervals that moved, verdicts that changed, and findings that are new, resolved or
-//! still open.
+//! scores and intervals that moved, test splits that changed (by fingerprint), verdicts that
+//! changed, and findings that are new, resolved or still open.
 //!
 //! The base report is read with types of its own that keep only what the comparison needs, so
 //! a base report from this report version with extra fields still compares.
@@ -20,6 +20,7 @@ struct BaseReport {
 #[derive(Debug, Deserialize)]
 struct BaseModel {
     name: String,
+    test_fingerprint: String,
     cv: Option<BaseEstimate>,
     test: Option<BaseEstimate>,
     verdict: String,
@@ -48,6 +49,9 @@ pub struct SinceBase {
     pub removed: Vec<String>,
     pub moved: Vec<Moved>,
     pub verdicts: Vec<VerdictChange>,
+    /// Models now scored on a different test split than in the base report: their scores are
+    /// no longer comparable, and the split change needs a reason.
+    pub split_changes: Vec<SplitChange>,
     pub new_findings: Vec<FindingRef>,
     pub resolved_findings: Vec<FindingRef>,
     pub open_findings: Vec<FindingRef>,
@@ -65,6 +69,13 @@ pub struct Moved {
     pub before_upper: Option<f64>,
     pub after_lower: Option<f64>,
     pub after_upper: Option<f64>,
+}
+
+#[derive(Debug, Clone, Serialize, JsonSchema)]
+pub struct SplitChange {
+    pub model: String,
+    pub before: String,
+    pub after: String,
 }
 
 #[derive(Debug, Clone, Serialize, JsonSchema)]
@@ -104,6 +115,7 @@ pub fn compare(base_text: &str, models: &[ModelView]) -> Result<SinceBase, Strin
             .collect(),
         moved: Vec::new(),
         verdicts: Vec::new(),
+        split_changes: Vec::new(),
         new_findings: Vec::new(),
         resolved_findings: Vec::new(),
         open_findings: Vec::new(),
@@ -123,6 +135,13 @@ pub fn compare(base_text: &str, models: &[ModelView]) -> Result<SinceBase, Strin
             if let Some(m) = moved(&model.name, estimate, before.as_ref(), after.as_ref()) {
                 since.moved.push(m);
             }
+        }
+        if old.test_fingerprint != model.test_fingerprint {
+            since.split_changes.push(SplitChange {
+                model: model.name.clone(),
+                before: old.test_fingerprint.clone(),
+                after: model.test_fingerprint.clone(),
+            });
         }
         if old.verdict != verdict {
             since.verdicts.push(VerdictChange {

@@ -73,6 +73,8 @@ pub struct ModelView {
     pub line: Option<u64>,
     pub metric: Metric,
     pub higher_is_better: bool,
+    /// The identity of the test split the model was scored on.
+    pub test_fingerprint: String,
     pub claim: ClaimView,
     pub cv: Option<EstimateView>,
     pub test: Option<EstimateView>,
@@ -225,6 +227,7 @@ fn model_view(m: &ModelAssessment) -> ModelView {
         line: m.model.origin.line,
         metric: m.model.metric,
         higher_is_better: m.model.metric.higher_is_better(),
+        test_fingerprint: m.model.data.test_fingerprint.clone(),
         claim: ClaimView {
             value: m.model.claim.value,
             basis: m.model.claim.basis,

@@ -152,31 +152,24 @@ pub trait SettingValue {
     fn is_looser(&self, base: &Self, way: Looser) -> bool;
 }
 
-impl SettingValue for f64 {
-    fn show(&self) -> String {
-        self.to_string()
-    }
-    fn is_looser(&self, base: &Self, way: Looser) -> bool {
-        match way {
-            Looser::Larger => self > base,
-            Looser::Smaller => self < base,
-            _ => self != base,
+/// Numbers compare by size; without a direction any change counts.
+macro_rules! numeric_setting {
+    ($($t:ty),*) => {$(
+        impl SettingValue for $t {
+            fn show(&self) -> String {
+                self.to_string()
+            }
+            fn is_looser(&self, base: &Self, way: Looser) -> bool {
+                match way {
+                    Looser::Larger => self > base,
+                    Looser::Smaller => self < base,
+                    _ => self != base,
+                }
+            }
         }
-    }
+    )*};
 }
-
-impl SettingValue for u64 {
-    fn show(&self) -> String {
-        self.to_string()
-    }
-    fn is_looser(&self, base: &Self, way: Looser) -> bool {
-        match way {
-            Looser::Larger => self > base,
-            Looser::Smaller => self < base,
-            _ => self != base,
-        }
-    }
-}
+numeric_setting!(f64, u64);
 
 impl SettingValue for bool {
     fn show(&self) -> String {

@@ -83,6 +83,7 @@ pub struct ModelReport {
     pub line: Option<u64>,
     pub metric: String,
     pub higher_is_better: bool,
+    pub test_fingerprint: String,
     pub claim: ClaimReport,
     pub cv: Option<EstimateReport>,
     pub test: Option<EstimateReport>,
