@@ -54,7 +54,7 @@ pub fn manifest(data: &[u8]) {
         Ok(raw) => raw,
         Err(d) => return assert_rejected(&[d]),
     };
-    match manifest::validate(file, raw) {
+    match manifest::validate(file, raw, std::path::Path::new(".")) {
         Ok(models) => {
             assert!(!models.is_empty(), "an accepted manifest has a model");
             for m in &models {

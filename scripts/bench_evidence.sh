@@ -63,7 +63,7 @@ models:
 PY
 
 measure() { /usr/bin/time -f "%e %M" "$@" 2> "$work/time" > "$work/out" || true; tail -n 1 "$work/time"; }
-read -r rs_s rs_kb < <(measure target/release/vetscore check --today 2026-12-01 --json - "$work/manifest.yaml")
+read -r rs_s rs_kb < <(measure target/release/vetscore check --today 2026-12-01 --root "$work" --json - "$work/manifest.yaml")
 cp "$work/out" "$work/vetscore.json"
 read -r py_s py_kb < <(measure "$PYTHON" benches/evidence_python.py "$work")
 cp "$work/out" "$work/python.json"

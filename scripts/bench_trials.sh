@@ -55,7 +55,7 @@ models:
 PY
 
 measure() { /usr/bin/time -f "%e %M" "$@" 2> "$work/time" > "$work/out"; tail -n 1 "$work/time"; }
-read -r rs_s rs_kb < <(measure target/release/vetscore check --today 2026-12-01 --json - "$work/manifest.yaml" || true)
+read -r rs_s rs_kb < <(measure target/release/vetscore check --today 2026-12-01 --root "$work" --json - "$work/manifest.yaml" || true)
 cp "$work/out" "$work/vetscore.json"
 read -r py_s py_kb < <(measure "$PYTHON" benches/trials_python.py "$work/trials.csv" 10 100000 0.80)
 cp "$work/out" "$work/python.json"

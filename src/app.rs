@@ -205,9 +205,13 @@ fn ledger(action: LedgerAction) -> Result<Exit> {
             }
             Err(d) => Ok(report_problems(&[d], "the ledger cannot be trusted")),
         },
-        LedgerAction::Append { ledger, manifests } => {
+        LedgerAction::Append {
+            ledger,
+            manifests,
+            root,
+        } => {
             let mut problems = Vec::new();
-            let models = load_models(&manifests, &mut problems);
+            let models = load_models(&manifests, root.as_deref(), &mut problems);
             if !problems.is_empty() {
                 return Ok(report_problems(&problems, "nothing was recorded"));
             }
@@ -223,10 +227,16 @@ fn ledger(action: LedgerAction) -> Result<Exit> {
 }
 
 /// Loads every manifest the patterns name, collecting problems (including duplicate names).
-fn load_models(patterns: &[String], problems: &mut Vec<Diagnostic>) -> Vec<Model> {
+/// Files a manifest names must lie inside `root` (the working directory when not given).
+fn load_models(
+    patterns: &[String],
+    root: Option<&Path>,
+    problems: &mut Vec<Diagnostic>,
+) -> Vec<Model> {
+    let root = root.map_or_else(|| PathBuf::from("."), Path::to_path_buf);
     let mut models: Vec<Model> = Vec::new();
     for path in expand(patterns, problems) {
-        match manifest::load(&path) {
+        match manifest::load(&path, &root) {
             Ok(found) => models.extend(found),
             Err(d) => problems.extend(d),
         }
@@ -288,7 +298,7 @@ fn check(args: &CheckArgs) -> Result<Exit> {
         .base_policy
         .as_ref()
         .and_then(|path| Policy::load(path).map_err(|d| problems.extend(d)).ok());
-    let models = load_models(&args.manifests, &mut problems);
+    let models = load_models(&args.manifests, args.root.as_deref(), &mut problems);
     let ledger = match &args.ledger {
         Some(path) => crate::ledger::store::read(path, false)
             .map_err(|d| problems.push(d))

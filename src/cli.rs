@@ -66,6 +66,9 @@ pub enum LedgerAction {
         /// Results manifests: paths or glob patterns.
         #[arg(required = true, value_name = "MANIFEST")]
         manifests: Vec<String>,
+        /// Directory the files named in manifests must lie in (default: the working directory).
+        #[arg(long, value_name = "DIR")]
+        root: Option<PathBuf>,
     },
     /// Check that no entry was changed, removed or reordered; name the first broken entry.
     Verify {
@@ -145,6 +148,11 @@ pub struct CheckArgs {
     /// Count the holdout evaluations recorded in this ledger toward the holdout budget.
     #[arg(long, value_name = "FILE")]
     pub ledger: Option<PathBuf>,
+
+    /// Directory the files named in manifests (trials, predictions, id lists) must lie in;
+    /// default: the working directory. Keeps a manifest from reading files elsewhere.
+    #[arg(long, value_name = "DIR")]
+    pub root: Option<PathBuf>,
 
     /// Judge waiver expiry against this date (YYYY-MM-DD) instead of today's date in UTC.
     #[arg(long, value_name = "DATE")]

@@ -56,7 +56,17 @@ fn since_base_lists_what_moved_what_resolved_and_what_was_removed() {
 
     let json = dir.path().join("mr.json");
     let pattern = format!("{}/manifests/*", mr.display());
-    let out = check_json(&pattern, &["--baseline", base.to_str().unwrap()], &json);
+    // The merge request's files live in a temporary directory: let the check read there.
+    let out = check_json(
+        &pattern,
+        &[
+            "--baseline",
+            base.to_str().unwrap(),
+            "--root",
+            dir.path().to_str().unwrap(),
+        ],
+        &json,
+    );
     assert_eq!(out.status.code(), Some(1), "{}", stderr(&out));
     let report: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(&json).unwrap()).unwrap();

@@ -245,13 +245,13 @@ pub struct Baseline {
     pub set: crate::evidence::PredictionSet,
 }
 
-/// Reads and validates one manifest file.
-pub fn load(path: &Path) -> Result<Vec<Model>, Vec<Diagnostic>> {
+/// Reads and validates one manifest file; the files it names must lie inside `root`.
+pub fn load(path: &Path, root: &Path) -> Result<Vec<Model>, Vec<Diagnostic>> {
     let file = path.display().to_string();
     let text = input::read_text(path).map_err(|d| vec![d])?;
     let raw: raw::RawManifest =
         input::parse(&file, &text, Syntax::detect(path, &text)).map_err(|d| vec![d])?;
-    validate(&file, raw)
+    validate(&file, raw, root)
 }
 
 /// The JSON Schema of the manifest format.

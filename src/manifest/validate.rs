@@ -25,8 +25,9 @@ const PROPORTION_ROUNDING: f64 = 5e-5;
 /// and class counts, so they cannot overflow `u64` (validation sums in `u128`).
 pub const MAX_ROWS: u64 = 1 << 53;
 
-/// Validates a parsed manifest. `file` is used in diagnostics.
-pub fn validate(file: &str, raw: RawManifest) -> Result<Vec<Model>, Vec<Diagnostic>> {
+/// Validates a parsed manifest. `file` is used in diagnostics; files the manifest names must
+/// lie inside `root`.
+pub fn validate(file: &str, raw: RawManifest, root: &Path) -> Result<Vec<Model>, Vec<Diagnostic>> {
     let mut out = Diagnostics::default();
     out.extend(crate::diag::format_version(
         file,
@@ -46,6 +47,7 @@ pub fn validate(file: &str, raw: RawManifest) -> Result<Vec<Model>, Vec<Diagnost
     for (i, spanned) in raw.models.into_iter().enumerate() {
         let mut v = Validator {
             file,
+            root,
             out: &mut out,
         };
         if let Some(model) = v.model(&format!("models[{i}]"), spanned) {
@@ -57,6 +59,7 @@ pub fn validate(file: &str, raw: RawManifest) -> Result<Vec<Model>, Vec<Diagnost
 
 struct Validator<'a> {
     file: &'a str,
+    root: &'a Path,
     out: &'a mut Diagnostics,
 }
 
@@ -158,12 +161,32 @@ impl Validator<'_> {
         })
     }
 
-    /// A file named in the manifest, relative to the manifest's directory.
-    fn resolve(&self, name: &str) -> std::path::PathBuf {
-        Path::new(self.file)
+    /// A file named in the manifest, relative to the manifest's directory. It must stay inside
+    /// the check's root directory: manifests come with merge requests, and an error quoting a
+    /// line of a file elsewhere on the CI machine would leak it into the job's log. A file that
+    /// does not exist is left for its reader to report.
+    fn resolve(&mut self, place: Place, key: &str, name: &str) -> Option<std::path::PathBuf> {
+        let path = Path::new(self.file)
             .parent()
             .unwrap_or(Path::new("."))
-            .join(name)
+            .join(name);
+        match (path.canonicalize(), self.root.canonicalize()) {
+            (Ok(real), Ok(root)) if !real.starts_with(&root) => {
+                self.out.push(
+                    Diagnostic::at(
+                        self.file,
+                        place,
+                        key,
+                        format!("{name:?} lies outside the check's root directory"),
+                    )
+                    .with_help(
+                        "keep the files a manifest names under the working directory, or set --root",
+                    ),
+                );
+                None
+            }
+            _ => Some(path),
+        }
     }
 
     fn leakage(
@@ -174,11 +197,14 @@ impl Validator<'_> {
     ) -> Option<crate::evidence::ids::Overlap> {
         match (train, test) {
             (Some(train), Some(test)) => {
-                let named = |key: &str| format!("{path}.{key} in {}", self.file);
+                let train = self.resolve(place, &format!("{path}.train_ids_file"), &train)?;
+                let test = self.resolve(place, &format!("{path}.test_ids_file"), &test)?;
+                let file = self.file;
+                let named = |key: &str| format!("{path}.{key} in {file}");
                 match crate::evidence::ids::overlap(
-                    &self.resolve(&train),
+                    &train,
                     &named("train_ids_file"),
-                    &self.resolve(&test),
+                    &test,
                     &named("test_ids_file"),
                 ) {
                     Ok(o) => Some(o),
@@ -245,7 +271,8 @@ impl Validator<'_> {
             named_by: &named,
             fingerprint: true,
         };
-        let set = match crate::evidence::read_predictions(&self.resolve(&p.file), expect) {
+        let file = self.resolve(place, &format!("{path}.predictions.file"), &p.file)?;
+        let set = match crate::evidence::read_predictions(&file, expect) {
             Ok(set) => set,
             Err(problems) => {
                 self.out.extend(problems);
@@ -272,7 +299,11 @@ impl Validator<'_> {
                     fingerprint: false,
                 };
                 match crate::evidence::read_predictions(
-                    &self.resolve(&b.value.predictions_file),
+                    &self.resolve(
+                        Place::of(&b.referenced),
+                        &format!("{path}.baseline.predictions_file"),
+                        &b.value.predictions_file,
+                    )?,
                     expect,
                 ) {
                     Ok(bset) => Some(super::Baseline {
@@ -409,10 +440,7 @@ impl Validator<'_> {
             }
             (Some(inline), None) => self.inline_trials(path, metric, cv.folds.len(), inline),
             (None, Some(file)) => {
-                let resolved = Path::new(self.file)
-                    .parent()
-                    .unwrap_or(Path::new("."))
-                    .join(&file);
+                let resolved = self.resolve(place, &format!("{path}.trials_file"), &file)?;
                 match trials::read_file(
                     &resolved,
                     &format!("{path}.trials_file in {}", self.file),
