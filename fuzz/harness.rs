@@ -150,6 +150,7 @@ pub fn model(name: &str, claim_text: Option<String>) -> Model {
         name: name.to_owned(),
         predictions: None,
         leakage: None,
+        baseline: None,
         origin: Origin {
             file: "fuzz.yaml".to_owned(),
             line: Some(3),

@@ -135,6 +135,8 @@ pub struct Model {
     pub predictions: Option<Predictions>,
     /// What comparing the train and test id lists found, when both are given.
     pub leakage: Option<crate::evidence::ids::Overlap>,
+    /// The model a "better than" claim is compared with.
+    pub baseline: Option<Baseline>,
     pub origin: Origin,
     pub task: Task,
     pub metric: Metric,
@@ -231,18 +233,20 @@ pub struct Claim {
     pub beats_baseline: bool,
 }
 
-/// A model's predictions, and its baseline's on the same rows.
+/// A model's predictions on the test split.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Predictions {
     pub set: crate::evidence::PredictionSet,
     pub f1: raw::F1Mode,
-    pub baseline: Option<Baseline>,
 }
 
+/// The model a "better than" claim is compared with: its predictions on the same test rows, or
+/// its scores on the same cross-validation folds (at least one of the two).
 #[derive(Debug, Clone, PartialEq)]
 pub struct Baseline {
     pub name: String,
-    pub set: crate::evidence::PredictionSet,
+    pub set: Option<crate::evidence::PredictionSet>,
+    pub cv_fold_scores: Option<Vec<f64>>,
 }
 
 /// Reads and validates one manifest file; the files it names must lie inside `root`.

@@ -138,8 +138,13 @@ pub struct RawBaseline {
     /// Name of the baseline model, for the report.
     pub name: String,
     /// Its predictions on the same test rows (same columns as the model's), relative to this
-    /// manifest.
-    pub predictions_file: String,
+    /// manifest: the improvement is then judged by a paired test on those rows.
+    #[serde(default)]
+    pub predictions_file: Option<String>,
+    /// Its score on each cross-validation fold of the model's search, on the same folds, when
+    /// there are no test predictions: the improvement is then judged on the fold differences.
+    #[serde(default)]
+    pub cv_fold_scores: Option<Vec<f64>>,
 }
 
 /// Rows per class label in each split.

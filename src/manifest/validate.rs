@@ -57,6 +57,13 @@ pub fn validate(file: &str, raw: RawManifest, root: &Path) -> Result<Vec<Model>,
     out.finish(models)
 }
 
+/// What reading a baseline's predictions needs from the model's: it exists, and the classes and
+/// positive class it names.
+struct Pairing<'a> {
+    classes: Option<&'a [String]>,
+    positive: Option<&'a str>,
+}
+
 struct Validator<'a> {
     file: &'a str,
     root: &'a Path,
@@ -125,16 +132,26 @@ impl Validator<'_> {
         let data = self.data(&format!("{path}.data"), raw.data);
         let leakage = self.leakage(place, &format!("{path}.data"), id_files);
         let beats_baseline = raw.claim.value.beats_baseline;
-        let predictions = self.predictions(
-            path,
-            raw.task,
-            raw.predictions,
-            raw.baseline,
-            beats_baseline,
-        );
+        // The baseline's file is read with the classes and positive class the model's names.
+        let (classes, positive) = raw.predictions.as_ref().map_or((None, None), |p| {
+            (p.value.classes.clone(), p.value.positive_class.clone())
+        });
+        let predictions = self.predictions(path, raw.task, raw.predictions);
         let search = raw
             .search
             .and_then(|s| self.search(&format!("{path}.search"), raw.metric, data.as_ref(), s));
+        let baseline = self.baseline(
+            path,
+            raw.task,
+            raw.metric,
+            raw.baseline,
+            predictions.as_ref().map(|_| Pairing {
+                classes: classes.as_deref(),
+                positive: positive.as_deref(),
+            }),
+            search.as_ref().map(|s| s.cv.folds.len()),
+            beats_baseline,
+        );
         let holdout = self.holdout(path, raw.metric, data.as_ref(), raw.holdout);
         let claim = self.claim(&format!("{path}.claim"), raw.metric, raw.claim);
         if self.out.len() > before {
@@ -144,6 +161,7 @@ impl Validator<'_> {
             name: raw.name,
             predictions,
             leakage,
+            baseline,
             origin: Origin {
                 file: self.file.to_owned(),
                 line: place.line,
@@ -231,26 +249,9 @@ impl Validator<'_> {
         path: &str,
         task: super::Task,
         raw: Option<Spanned<super::raw::RawPredictions>>,
-        baseline: Option<Spanned<super::raw::RawBaseline>>,
-        beats_baseline: bool,
     ) -> Option<super::Predictions> {
         use crate::evidence::read::Expect;
-        let Some(spanned) = raw else {
-            if let Some(b) = baseline {
-                self.problem(
-                    Place::of(&b.referenced),
-                    &format!("{path}.baseline"),
-                    "a baseline needs the model's own predictions (`predictions`) to pair with",
-                );
-            } else if beats_baseline {
-                self.problem(
-                    Place::default(),
-                    &format!("{path}.claim.beats_baseline"),
-                    "a claim to beat the baseline needs `baseline` and `predictions`",
-                );
-            }
-            return None;
-        };
+        let spanned = raw?;
         let place = Place::of(&spanned.referenced);
         let p = spanned.value;
         if let (Some(classes), Some(positive)) = (&p.classes, &p.positive_class)
@@ -288,46 +289,99 @@ impl Validator<'_> {
         } else {
             super::raw::F1Mode::Macro
         });
-        let baseline = match baseline {
-            Some(b) => {
-                let named = format!("{path}.baseline.predictions_file in {}", self.file);
+        Some(super::Predictions { set, f1 })
+    }
+
+    /// The baseline: its predictions paired with the model's by id, or its scores on the
+    /// model's cross-validation folds.
+    #[allow(clippy::too_many_arguments)]
+    fn baseline(
+        &mut self,
+        path: &str,
+        task: super::Task,
+        metric: Metric,
+        raw: Option<Spanned<super::raw::RawBaseline>>,
+        predictions: Option<Pairing<'_>>,
+        folds: Option<usize>,
+        beats_baseline: bool,
+    ) -> Option<super::Baseline> {
+        use crate::evidence::read::Expect;
+        let Some(spanned) = raw else {
+            if beats_baseline {
+                self.problem(
+                    Place::default(),
+                    &format!("{path}.claim.beats_baseline"),
+                    "a claim to beat the baseline needs `baseline`",
+                );
+            }
+            return None;
+        };
+        let place = Place::of(&spanned.referenced);
+        let b = spanned.value;
+        let key = format!("{path}.baseline");
+        if b.predictions_file.is_none() && b.cv_fold_scores.is_none() {
+            self.problem(
+                place,
+                &key,
+                "a baseline needs `predictions_file` or `cv_fold_scores`",
+            );
+            return None;
+        }
+        let set = match (&b.predictions_file, predictions) {
+            (None, _) => None,
+            (Some(_), None) => {
+                self.problem(
+                    place,
+                    &format!("{key}.predictions_file"),
+                    "baseline predictions need the model's own predictions (`predictions`) to pair with",
+                );
+                return None;
+            }
+            (Some(file), Some(Pairing { classes, positive })) => {
+                let named = format!("{key}.predictions_file in {}", self.file);
                 let expect = Expect {
                     task,
-                    classes: p.classes.as_deref(),
-                    positive: p.positive_class.as_deref(),
+                    classes,
+                    positive,
                     named_by: &named,
                     fingerprint: false,
                 };
-                match crate::evidence::read_predictions(
-                    &self.resolve(
-                        Place::of(&b.referenced),
-                        &format!("{path}.baseline.predictions_file"),
-                        &b.value.predictions_file,
-                    )?,
-                    expect,
-                ) {
-                    Ok(bset) => Some(super::Baseline {
-                        name: b.value.name,
-                        set: bset,
-                    }),
+                let resolved = self.resolve(place, &format!("{key}.predictions_file"), file)?;
+                match crate::evidence::read_predictions(&resolved, expect) {
+                    Ok(set) => Some(set),
                     Err(problems) => {
                         self.out.extend(problems);
                         return None;
                     }
                 }
             }
-            None => {
-                if beats_baseline {
-                    self.problem(
-                        place,
-                        &format!("{path}.claim.beats_baseline"),
-                        "a claim to beat the baseline needs `baseline`",
-                    );
-                }
-                None
-            }
         };
-        Some(super::Predictions { set, f1, baseline })
+        if let Some(scores) = &b.cv_fold_scores {
+            if folds != Some(scores.len()) {
+                self.problem(
+                    place,
+                    &format!("{key}.cv_fold_scores"),
+                    format!(
+                        "expected one score per fold of the model's search ({}), found {}",
+                        folds.map_or("no folds".to_owned(), |f| f.to_string()),
+                        scores.len()
+                    ),
+                );
+                return None;
+            }
+            let mut ok = true;
+            for (k, &score) in scores.iter().enumerate() {
+                ok &= self.score(place, &format!("{key}.cv_fold_scores[{k}]"), metric, score);
+            }
+            if !ok {
+                return None;
+            }
+        }
+        Some(super::Baseline {
+            name: b.name,
+            set,
+            cv_fold_scores: b.cv_fold_scores,
+        })
     }
 
     fn timestamp(&mut self, place: Place, path: &str, text: &str) -> Option<jiff::Timestamp> {

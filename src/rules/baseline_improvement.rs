@@ -3,6 +3,8 @@
 use super::{Context, Outcome, RuleInfo, RuleSettings, Subject, rule_settings};
 use crate::evidence::metric::compare;
 use crate::finding::{Evidence, Quantity, Severity, Status};
+use crate::manifest::Baseline;
+use crate::stats;
 
 rule_settings! {
     /// Settings of the improvement rule.
@@ -20,7 +22,10 @@ with a paired test on the rows both were scored on, matched by id: for accuracy 
 (McNemar 1947; exact binomial on the discordant pairs when there are fewer than 25, chi-square \
 with continuity correction otherwise) with the Agresti & Min (2005) interval for the difference \
 of paired proportions; for ROC AUC DeLong's paired test (DeLong, DeLong & Clarke-Pearson 1988); \
-for log loss, RMSE (squared error), MAE and R² a paired t-test on per-row loss differences. It \
+for log loss, RMSE (squared error), MAE and R² a paired t-test on per-row loss differences. When \
+the baseline has no test predictions but was scored on the model's cross-validation folds \
+(`baseline.cv_fold_scores`), the Nadeau & Bengio (2003) corrected resampled t-test on the fold \
+differences, whose variance allows for the overlap between training sets. It \
 fails when the difference is not significant at the policy's confidence, when the interval's \
 lower bound does not exceed `min_improvement`, when ids are missing from either file, or when \
 the two files disagree on a row's true label. Two models scored on different rows cannot be \
@@ -50,16 +55,15 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
             Vec::new(),
         );
     }
-    let Some((p, baseline)) = model
-        .predictions
-        .as_ref()
-        .and_then(|p| p.baseline.as_ref().map(|b| (p, b)))
-    else {
+    let Some(baseline) = &model.baseline else {
         return Outcome::inconclusive(
-            "The claim says the model beats its baseline, but no baseline predictions were read.",
+            "The claim says the model beats its baseline, but the manifest names no baseline.",
         );
     };
-    let c = match compare(&p.set, &baseline.set, model.metric, ctx.confidence) {
+    let (Some(p), Some(set)) = (&model.predictions, &baseline.set) else {
+        return folds_only(subject, ctx, baseline, min);
+    };
+    let c = match compare(&p.set, set, model.metric, ctx.confidence) {
         Ok(c) => c,
         Err(why) => {
             return Outcome::inconclusive(format!(
@@ -125,6 +129,89 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
         "On {paired_rows} paired rows the improvement over {baseline} is {improvement} (interval \
          {interval}, p = {p_value}, {test}): not enough to claim the model is better (the \
          interval must lie above {min_improvement}).",
+        evidence,
+    )
+}
+
+/// Without paired predictions: the Nadeau & Bengio (2003) corrected resampled t-test on the
+/// differences between the model's and the baseline's scores on the same CV folds.
+fn folds_only(subject: &Subject, ctx: &Context, baseline: &Baseline, min: f64) -> Outcome {
+    let model = subject.model;
+    let (Some(scores), Some(search)) = (&baseline.cv_fold_scores, &model.search) else {
+        return Outcome::inconclusive(
+            "The baseline has neither predictions on the test rows nor scores on the model's folds.",
+        );
+    };
+    let folds = &search.cv.folds;
+    let sign = if model.metric.higher_is_better() {
+        1.0
+    } else {
+        -1.0
+    };
+    let diffs: Vec<f64> = folds
+        .iter()
+        .zip(scores)
+        .map(|(f, b)| sign * (f.score - b))
+        .collect();
+    // n2/n1 for each fold: its validation rows over the rows trained on (the rest of the
+    // distinct training rows); averaged over folds, 1/(k - 1) for equal k-fold splits.
+    let distinct = search.cv.distinct_rows() as f64;
+    let ratio = folds
+        .iter()
+        .map(|f| f.rows as f64 / (distinct - f.rows as f64).max(1.0))
+        .sum::<f64>()
+        / folds.len() as f64;
+    let t = match stats::corrected_resampled_t(&diffs, ratio, ctx.confidence) {
+        Ok(t) => t,
+        Err(e) => {
+            return Outcome::inconclusive(format!(
+                "The fold differences could not be tested: {e}."
+            ));
+        }
+    };
+    let evidence = vec![
+        Evidence::text("baseline", "Baseline", baseline.name.clone()),
+        Evidence::text(
+            "test",
+            "Paired test",
+            "Nadeau–Bengio corrected resampled t on fold differences",
+        ),
+        Evidence::count("folds", "Folds compared", diffs.len() as u64),
+        Evidence::number(
+            "ratio",
+            "Validation / training rows per fold",
+            ratio,
+            Quantity::Score,
+        ),
+        Evidence::number(
+            "improvement",
+            "Mean improvement per fold",
+            t.mean,
+            Quantity::Score,
+        ),
+        Evidence::interval(
+            "interval",
+            "Interval for the improvement",
+            t.interval,
+            ctx.confidence,
+        ),
+        Evidence::number("t", "Corrected t", t.t, Quantity::Score),
+        Evidence::number("p_value", "p-value", t.p_value, Quantity::Probability),
+        Evidence::number(
+            "min_improvement",
+            "Smallest improvement worth claiming",
+            min,
+            Quantity::Score,
+        ),
+    ];
+    let significant = t.p_value < 1.0 - ctx.confidence;
+    Outcome::judge(
+        significant && t.interval.lower > min && t.mean > 0.0,
+        "On the same {folds} CV folds the model improves on {baseline} by {improvement} per fold \
+         (interval {interval}, p = {p_value}, {test}); there are no test predictions to pair.",
+        "On the same {folds} CV folds the improvement over {baseline} is {improvement} per fold \
+         (interval {interval}, p = {p_value}, {test}): not enough to claim the model is better \
+         (the interval must lie above {min_improvement}).",
         evidence,
     )
 }
