@@ -76,6 +76,8 @@ pub fn evaluate(
         today,
         waivers: Vec::new(),
         inconclusive_fails: policy.inconclusive == Inconclusive::Fail,
+        bootstrap_resamples: policy.bootstrap_resamples,
+        seed: policy.seed,
         base: None,
     };
     let assessed: Vec<ModelAssessment> = models

@@ -272,8 +272,10 @@ pub fn compare(
     model: &PredictionSet,
     baseline: &PredictionSet,
     metric: Metric,
-    confidence: f64,
+    f1: F1Mode,
+    settings: Settings,
 ) -> Result<Comparison, String> {
+    let confidence = settings.confidence;
     let err = |e: stats::StatsError| e.to_string();
     let (pairs, unpaired) = pair_by_id(model, baseline);
     let mut comparison = Comparison {
@@ -395,9 +397,54 @@ pub fn compare(
                     )?;
                     fill_t(&mut comparison, result);
                 }
+                Metric::F1 | Metric::BalancedAccuracy => {
+                    let (pa, pb) = (
+                        pa.as_ref()
+                            .ok_or("the paired bootstrap needs the model's `prediction` column")?,
+                        pb.as_ref().ok_or(
+                            "the paired bootstrap needs the baseline's `prediction` column",
+                        )?,
+                    );
+                    let k = ca.len();
+                    if k > 64 {
+                        return Err(format!(
+                            "the paired bootstrap is limited to 64 classes; the file has {k}"
+                        ));
+                    }
+                    let mut joint = vec![0u64; k * k * k];
+                    for &(i, j) in &pairs {
+                        let b_pred = to_model[pb[j as usize] as usize].ok_or(
+                            "the baseline predicts a class the model's file does not have",
+                        )?;
+                        let cell = (aa[i as usize] as usize * k + pa[i as usize] as usize) * k
+                            + b_pred as usize;
+                        joint[cell] += 1;
+                    }
+                    let average = f1_average(f1, model.positive)?;
+                    let statistic = |c: &ConfusionMatrix| {
+                        if metric == Metric::F1 {
+                            c.f1(average)
+                        } else {
+                            c.balanced_accuracy()
+                        }
+                    };
+                    let r = stats::bootstrap_paired_confusion(
+                        k,
+                        &joint,
+                        statistic,
+                        settings.resamples,
+                        confidence,
+                        settings.seed,
+                    )
+                    .map_err(err)?;
+                    comparison.improvement = r.difference;
+                    comparison.interval = r.interval;
+                    comparison.p_value = r.p_value;
+                    comparison.test = "paired bootstrap of the joint confusion table";
+                }
                 other => {
                     return Err(format!(
-                        "no paired test for {} is implemented; compare on accuracy, ROC AUC or log loss",
+                        "no paired test for {} applies to a classification file",
                         other.name()
                     ));
                 }

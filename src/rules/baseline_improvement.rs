@@ -22,7 +22,9 @@ with a paired test on the rows both were scored on, matched by id: for accuracy 
 (McNemar 1947; exact binomial on the discordant pairs when there are fewer than 25, chi-square \
 with continuity correction otherwise) with the Agresti & Min (2005) interval for the difference \
 of paired proportions; for ROC AUC DeLong's paired test (DeLong, DeLong & Clarke-Pearson 1988); \
-for log loss, RMSE (squared error), MAE and R² a paired t-test on per-row loss differences. When \
+for F1 and balanced accuracy a seeded paired bootstrap that resamples the joint table of (true \
+class, model's prediction, baseline's prediction) counts; for log loss, RMSE (squared error), \
+MAE and R² a paired t-test on per-row loss differences. When \
 the baseline has no test predictions but was scored on the model's cross-validation folds \
 (`baseline.cv_fold_scores`), the Nadeau & Bengio (2003) corrected resampled t-test on the fold \
 differences, whose variance allows for the overlap between training sets. It \
@@ -63,7 +65,13 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
     let (Some(p), Some(set)) = (&model.predictions, &baseline.set) else {
         return folds_only(subject, ctx, baseline, min);
     };
-    let c = match compare(&p.set, set, model.metric, ctx.confidence) {
+    let settings = crate::evidence::metric::Settings {
+        confidence: ctx.confidence,
+        method: ctx.interval_method,
+        resamples: ctx.bootstrap_resamples,
+        seed: ctx.seed,
+    };
+    let c = match compare(&p.set, set, model.metric, p.f1, settings) {
         Ok(c) => c,
         Err(why) => {
             return Outcome::inconclusive(format!(

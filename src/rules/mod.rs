@@ -319,6 +319,9 @@ pub struct Context {
     pub waivers: Vec<WaiverView>,
     /// Whether an inconclusive rule fails at its severity (the policy's `inconclusive: fail`).
     pub inconclusive_fails: bool,
+    /// Bootstrap resamples and seed, for paired comparisons without a closed form.
+    pub bootstrap_resamples: u32,
+    pub seed: u64,
     /// The base branch's policy as it applies to the model being checked, when given.
     pub base: Option<BasePolicy>,
 }

@@ -37,7 +37,10 @@ mod selection;
 mod special;
 
 pub use binomial::{best_of_n_tail, binomial_sf_ge};
-pub use bootstrap::{DEFAULT_RESAMPLES, RegressionStatistic, bootstrap_confusion, bootstrap_rows};
+pub use bootstrap::{
+    DEFAULT_RESAMPLES, PairedBootstrap, RegressionStatistic, bootstrap_confusion,
+    bootstrap_paired_confusion, bootstrap_rows,
+};
 pub use delong::{AucEstimate, PairedAuc, roc_auc_delong, roc_auc_delong_paired};
 pub use error::{Result, StatsError};
 pub use extremes::{blom_expected_max, expected_max_normal};
