@@ -197,7 +197,7 @@ pub fn model(name: &str, claim_text: Option<String>) -> Model {
 /// Evaluates and renders as `vetscore check` does; returns the Markdown.
 fn check_and_render(models: Vec<Model>, policy: &Policy) -> String {
     let count = models.len();
-    let assessment = vetscore::evaluate::evaluate(models, &[], policy, None, today());
+    let assessment = vetscore::evaluate::evaluate(models, &[], policy, None, None, today());
     assert_eq!(assessment.models.len(), count);
     let view = view::build(&assessment, policy, None);
     vetscore::report::json(&view).unwrap();

@@ -305,22 +305,34 @@ fn check(args: &CheckArgs) -> Result<Exit> {
             .unwrap_or_default(),
         None => Vec::new(),
     };
+    let base_report = args.baseline.as_ref().and_then(|path| {
+        crate::input::read_text(path)
+            .and_then(|text| {
+                report::since::BaseReport::parse(&text)
+                    .map_err(|message| Diagnostic::file(path.display().to_string(), message))
+            })
+            .map_err(|d| problems.push(d))
+            .ok()
+    });
     let (Some(policy), Some(today), true) = (policy, today, problems.is_empty()) else {
         return Ok(report_problems(&problems, "nothing was checked"));
     };
 
-    let assessment = evaluate::evaluate(models, &ledger, &policy, base_policy.as_ref(), today);
+    let base_splits = base_report
+        .as_ref()
+        .map(report::since::BaseReport::test_splits);
+    let assessment = evaluate::evaluate(
+        models,
+        &ledger,
+        &policy,
+        base_policy.as_ref(),
+        base_splits.as_ref(),
+        today,
+    );
     let mut view = view::build(&assessment, &policy, base_policy.as_ref());
-    if let Some(path) = &args.baseline {
-        let compared = crate::input::read_text(path).and_then(|text| {
-            report::since::compare(&text, &view.models)
-                .map_err(|message| Diagnostic::file(path.display().to_string(), message))
-        });
-        match compared {
-            Ok(since) => view.since_base = Some(since),
-            Err(d) => return Ok(report_problems(&[d], "nothing was checked")),
-        }
-    }
+    view.since_base = base_report
+        .as_ref()
+        .map(|base| report::since::compare(base, &view.models));
     let templates = match &args.templates {
         Some(dir) => Templates::with_overrides(dir)?,
         None => Templates::built_in(),

@@ -36,6 +36,7 @@ pub fn evaluate(
     ledger: &[ledger::Entry],
     policy: &Policy,
     base_policy: Option<&Policy>,
+    base_splits: Option<&BTreeMap<String, String>>,
     today: jiff::civil::Date,
 ) -> Assessment {
     let mut holdout_uses: BTreeMap<String, Vec<HoldoutUse>> = BTreeMap::new();
@@ -79,11 +80,13 @@ pub fn evaluate(
         bootstrap_resamples: policy.bootstrap_resamples,
         seed: policy.seed,
         base: None,
+        base_split: None,
     };
     let assessed: Vec<ModelAssessment> = models
         .into_iter()
         .map(|model| {
             context.waivers = waiver_views(policy, &model.name);
+            context.base_split = base_splits.map(|splits| splits.get(&model.name).cloned());
             context.base = base_policy.map(|b| BasePolicy {
                 settings: b.settings_for(&model.name).0,
                 confidence: b.confidence,

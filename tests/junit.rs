@@ -96,10 +96,11 @@ fn demo_junit_has_one_case_per_model_and_rule() {
     // The demo's blocking findings: logit claim; forest-v7 budget; knn claim (20 rows), gap,
     // optimism, folds and waiver.
     assert_eq!(failures, 7);
-    // forest-v6's budget failure is waived; for each of the five models, five rules that need
+    // forest-v6's budget failure is waived; for each of the five models, six rules that need
     // evidence the demo does not give are skipped: recompute, fingerprint, leakage and
-    // baseline_improvement (no predictions or id lists) and policy_change (no base policy).
-    assert_eq!(skipped, 1 + 5 * 5);
+    // baseline_improvement (no predictions or id lists), test_split (no base report) and
+    // policy_change (no base policy).
+    assert_eq!(skipped, 1 + 5 * 6);
 }
 
 #[test]

@@ -101,6 +101,19 @@ fn since_base_lists_what_moved_what_resolved_and_what_was_removed() {
     let splits = since["split_changes"].as_array().unwrap();
     assert_eq!(splits.len(), 1);
     assert_eq!(splits[0]["model"], "ripeness-knn-small");
+    let knn = report["models"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|m| m["name"] == "ripeness-knn-small")
+        .unwrap();
+    let split = knn["findings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|f| f["rule"] == "test_split")
+        .unwrap();
+    assert_eq!(split["status"], "fail");
     // Without forest-v6's two looks the shared split has four: forest-v7 still fails its budget.
     let open = since["open_findings"].as_array().unwrap();
     assert!(

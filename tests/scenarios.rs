@@ -1,6 +1,6 @@
 //! Runs every scenario under `fixtures/scenarios/`: each folder holds one or more manifests
 //! (`.yaml`/`.json`; other files, such as trials, are read through them), an
-//! optional `policy.yaml` (and `base-policy.yaml`, the base branch's) and an `expect.yaml` naming the exit code, the findings that must
+//! optional `policy.yaml` (and `base-policy.yaml` and `base-report.json`, the base branch's) and an `expect.yaml` naming the exit code, the findings that must
 //! appear with their status, and reference numbers with their published source. Together the
 //! scenarios must make every rule both fail and pass at least once.
 
@@ -64,7 +64,8 @@ fn run_scenario(dir: &Path, seen: &mut BTreeSet<(String, String)>) {
         .map(|e| e.unwrap().path())
         .filter(|p| {
             let file = p.file_name().unwrap().to_string_lossy();
-            let manifest = file.ends_with(".yaml") || file.ends_with(".json");
+            let manifest =
+                (file.ends_with(".yaml") || file.ends_with(".json")) && file != "base-report.json";
             manifest && !matches!(&*file, "expect.yaml" | "policy.yaml" | "base-policy.yaml")
         })
         .map(|p| p.to_string_lossy().into_owned())
@@ -81,6 +82,11 @@ fn run_scenario(dir: &Path, seen: &mut BTreeSet<(String, String)>) {
     if policy.exists() {
         args.push("--policy".into());
         args.push(policy.to_string_lossy().into_owned());
+    }
+    let report = dir.join("base-report.json");
+    if report.exists() {
+        args.push("--baseline".into());
+        args.push(report.to_string_lossy().into_owned());
     }
     let base = dir.join("base-policy.yaml");
     if base.exists() {

@@ -10,11 +10,35 @@ use serde::{Deserialize, Serialize};
 
 use super::view::{Effect, EstimateView, ModelView, REPORT_VERSION};
 
+/// The base branch's JSON report, as far as the comparison reads it.
 #[derive(Debug, Deserialize)]
-struct BaseReport {
+pub struct BaseReport {
     report_version: u32,
     verdict: String,
     models: Vec<BaseModel>,
+}
+
+impl BaseReport {
+    /// Parses a base report; errors say what is wrong with it.
+    pub fn parse(text: &str) -> Result<BaseReport, String> {
+        let base: BaseReport =
+            serde_json::from_str(text).map_err(|e| format!("not a vetscore JSON report: {e}"))?;
+        if base.report_version != REPORT_VERSION {
+            return Err(format!(
+                "expected report version {REPORT_VERSION}, found {}",
+                base.report_version
+            ));
+        }
+        Ok(base)
+    }
+
+    /// Each model's test fingerprint in the base report.
+    pub fn test_splits(&self) -> std::collections::BTreeMap<String, String> {
+        self.models
+            .iter()
+            .map(|m| (m.name.clone(), m.test_fingerprint.clone()))
+            .collect()
+    }
 }
 
 #[derive(Debug, Deserialize)]
@@ -93,16 +117,8 @@ pub struct FindingRef {
     pub status: String,
 }
 
-/// Compares this run's models with the base report's text; errors say what is wrong with it.
-pub fn compare(base_text: &str, models: &[ModelView]) -> Result<SinceBase, String> {
-    let base: BaseReport =
-        serde_json::from_str(base_text).map_err(|e| format!("not a vetscore JSON report: {e}"))?;
-    if base.report_version != REPORT_VERSION {
-        return Err(format!(
-            "expected report version {REPORT_VERSION}, found {}",
-            base.report_version
-        ));
-    }
+/// Compares this run's models with the base report.
+pub fn compare(base: &BaseReport, models: &[ModelView]) -> SinceBase {
     let find = |name: &str| base.models.iter().find(|m| m.name == name);
     let mut since = SinceBase {
         base_verdict: base.verdict.clone(),
@@ -184,7 +200,7 @@ pub fn compare(base_text: &str, models: &[ModelView]) -> Result<SinceBase, Strin
             }
         }
     }
-    Ok(since)
+    since
 }
 
 fn moved(

@@ -28,6 +28,7 @@ pub mod leakage;
 pub mod policy_change;
 pub mod recompute;
 pub mod selection_optimism;
+pub mod test_split;
 pub mod waiver_expiry;
 
 /// Severity as written in a policy file.
@@ -252,6 +253,7 @@ all_settings!(
     recompute,
     fingerprint,
     leakage,
+    test_split,
     baseline_improvement,
     completeness,
     waiver_expiry,
@@ -324,6 +326,9 @@ pub struct Context {
     pub seed: u64,
     /// The base branch's policy as it applies to the model being checked, when given.
     pub base: Option<BasePolicy>,
+    /// With a base report: the model's test fingerprint there (`None` inside when the model is
+    /// new since the base branch).
+    pub base_split: Option<Option<String>>,
 }
 
 /// The base branch's policy for one model, for the policy-change review.
