@@ -2,7 +2,7 @@
 //! the caller says the output is a terminal and `NO_COLOR` is unset.
 
 use super::format;
-use super::view::View;
+use super::view::{Effect, View};
 use crate::finding::Verdict;
 
 /// Renders the summary; `color` adds ANSI colours.
@@ -29,13 +29,7 @@ pub fn render(view: &View, color: bool) -> String {
         let blocking: Vec<&str> = m
             .findings
             .iter()
-            .filter(|f| {
-                f.severity == crate::finding::Severity::Error
-                    && matches!(
-                        f.status,
-                        crate::finding::Status::Fail | crate::finding::Status::Inconclusive
-                    )
-            })
+            .filter(|f| f.effect == Effect::Blocks)
             .map(|f| f.rule)
             .collect();
         let name: String = m.name.chars().filter(|c| !c.is_control()).collect();
