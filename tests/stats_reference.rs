@@ -684,7 +684,7 @@ fn invalid_arguments_are_errors() {
     assert!(best_of_n_tail(1, 10, f64::NAN, 0.5).is_err());
     assert!(expected_max_normal(0).is_err());
     assert!(mean_t_interval(&[1.0], 0.95).is_err());
-    assert!(stats::count_from_proportion(0.5, 0).is_err());
+    assert!(stats::count_from_proportion(0.5, 0, 1e-6).is_err());
     let err = proportion_interval(11, 10, 0.95, Wilson).unwrap_err();
     assert!(err.to_string().contains("11") && err.to_string().contains("10"));
     let err = t_quantile(0.5, -3.0).unwrap_err();

@@ -770,8 +770,8 @@ impl Validator<'_> {
             }
             return Some(correct);
         }
-        let nearest = (score * rows as f64).round();
-        if (nearest / rows as f64 - score).abs() > PROPORTION_ROUNDING {
+        let Ok(count) = crate::stats::count_from_proportion(score, rows, PROPORTION_ROUNDING)
+        else {
             self.out.push(
                 Diagnostic::at(
                     self.file,
@@ -782,8 +782,8 @@ impl Validator<'_> {
                 .with_help("an accuracy on n rows is k/n; check the row count, or give `correct` explicitly"),
             );
             return None;
-        }
-        Some(nearest as u64)
+        };
+        Some(count)
     }
 
     fn holdout(

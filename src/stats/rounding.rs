@@ -71,17 +71,18 @@ pub fn ceil_product(n: u64, x: f64) -> u64 {
 
 /// The integer k with k/n = `score`, for a proportion score (accuracy, recall, ...) on n rows.
 ///
-/// Rounds score·n to the nearest integer k and accepts it only if |score·n − k| ≤ min(1e-6·n, ½),
-/// i.e. the score is within 1e-6 of k/n: a score printed with six or more decimals (or stored as
-/// f32) is accepted, one rounded to fewer decimals is rejected when that rounding hides which k
-/// it was. Once n > 500 000 the grid k/n is finer than 2e-6 and the nearest k is always taken.
+/// Rounds score·n to the nearest integer k and accepts it only if |score − k/n| ≤ `tolerance`
+/// (|score·n − k| ≤ min(tolerance·n, ½)). With 1e-6, a score printed with six or more decimals
+/// (or stored as f32) is accepted and one rounded to fewer decimals is rejected when the rounding
+/// hides which k it was; with 5e-5, a score printed with four decimals is accepted. Once the grid
+/// k/n is finer than twice the tolerance, the nearest k is always taken.
 /// Errors: score not in [0, 1]; n = 0; score not within the tolerance of any k/n.
-pub fn count_from_proportion(score: f64, n: u64) -> Result<u64> {
+pub fn count_from_proportion(score: f64, n: u64, tolerance: f64) -> Result<u64> {
     check_unit_closed("score", score)?;
     check_nonzero("n", n)?;
     let scaled = score * n as f64;
     let nearest = scaled.round();
-    if (scaled - nearest).abs() <= (1e-6 * n as f64).min(0.5) {
+    if (scaled - nearest).abs() <= (tolerance * n as f64).min(0.5) {
         // 0 ≤ nearest ≤ n here, so the cast is exact.
         Ok(nearest as u64)
     } else {
@@ -123,14 +124,16 @@ mod tests {
     #[test]
     fn count_from_proportion_accepts_printed_scores() {
         // 1220/1980 = 0.616161..., printed to 8 and to 6 decimals (hand arithmetic).
-        assert_eq!(count_from_proportion(0.61616162, 1980).unwrap(), 1220);
-        assert_eq!(count_from_proportion(0.616162, 1980).unwrap(), 1220);
-        assert_eq!(count_from_proportion(0.0, 5).unwrap(), 0);
-        assert_eq!(count_from_proportion(1.0, 5).unwrap(), 5);
-        // Rounded to 4 decimals, 0.6162 × 1980 = 1220.076: not a count.
-        assert!(count_from_proportion(0.6162, 1980).is_err());
-        assert!(count_from_proportion(0.5, 0).is_err());
-        assert!(count_from_proportion(1.2, 10).is_err());
-        assert!(count_from_proportion(f64::NAN, 10).is_err());
+        assert_eq!(count_from_proportion(0.61616162, 1980, 1e-6).unwrap(), 1220);
+        assert_eq!(count_from_proportion(0.616162, 1980, 1e-6).unwrap(), 1220);
+        assert_eq!(count_from_proportion(0.0, 5, 1e-6).unwrap(), 0);
+        assert_eq!(count_from_proportion(1.0, 5, 1e-6).unwrap(), 5);
+        // Rounded to 4 decimals, 0.6162 × 1980 = 1220.076: not a count at 1e-6, but 1220 when
+        // four-decimal rounding is allowed (|0.6162 − 1220/1980| = 3.8e-5 ≤ 5e-5).
+        assert!(count_from_proportion(0.6162, 1980, 1e-6).is_err());
+        assert_eq!(count_from_proportion(0.6162, 1980, 5e-5).unwrap(), 1220);
+        assert!(count_from_proportion(0.5, 0, 1e-6).is_err());
+        assert!(count_from_proportion(1.2, 10, 1e-6).is_err());
+        assert!(count_from_proportion(f64::NAN, 10, 1e-6).is_err());
     }
 }
