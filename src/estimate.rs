@@ -10,6 +10,7 @@ use schemars::JsonSchema;
 use serde::Serialize;
 
 use crate::manifest::{CrossValidation, Evaluation, Model};
+pub use crate::stats::IntervalSettings;
 use crate::stats::{self, Interval, ProportionMethod};
 
 /// How an estimate's interval was obtained.
@@ -40,27 +41,6 @@ pub struct Estimate {
     pub correct: Option<u64>,
     /// Standard error of the estimate: √(p(1−p)/n) for a proportion, s/√k over k folds.
     pub std_error: Option<f64>,
-}
-
-/// Settings shared by every estimate.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct IntervalSettings {
-    pub confidence: f64,
-    pub method: ProportionMethod,
-    /// Bootstrap resamples and seed, for metrics recomputed from predictions.
-    pub resamples: u32,
-    pub seed: u64,
-}
-
-impl IntervalSettings {
-    pub fn evidence(self) -> crate::evidence::metric::Settings {
-        crate::evidence::metric::Settings {
-            confidence: self.confidence,
-            method: self.method,
-            resamples: self.resamples,
-            seed: self.seed,
-        }
-    }
 }
 
 /// The CV estimate of the selected configuration, if the manifest has a search.
@@ -123,9 +103,10 @@ pub type Recomputation = Result<crate::evidence::metric::Recomputed, String>;
 
 /// Recomputes the model's metric from its predictions, when it has them.
 pub fn recompute(model: &Model, settings: IntervalSettings) -> Option<Recomputation> {
-    model.predictions.as_ref().map(|p| {
-        crate::evidence::metric::recompute(&p.set, model.metric, p.f1, settings.evidence())
-    })
+    model
+        .predictions
+        .as_ref()
+        .map(|p| crate::evidence::metric::recompute(&p.set, model.metric, p.f1, settings))
 }
 
 /// The test estimate: recomputed from the predictions when the manifest has them (the

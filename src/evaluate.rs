@@ -3,7 +3,7 @@
 
 use std::collections::BTreeMap;
 
-use crate::estimate::{self, Estimate, IntervalSettings};
+use crate::estimate::{self, Estimate};
 use crate::finding::{Finding, PolicySource, Severity, Status, Verdict, WaiverNote, verdict_of};
 use crate::ledger;
 use crate::manifest::Model;
@@ -64,21 +64,12 @@ pub fn evaluate(
     }
     let names: Vec<&str> = models.iter().map(|m| m.name.as_str()).collect();
     let notes = policy.unmatched_entries(&names);
-    let interval = IntervalSettings {
-        confidence: policy.confidence,
-        method: policy.interval_method,
-        resamples: policy.bootstrap_resamples,
-        seed: policy.seed,
-    };
     let mut context = Context {
-        confidence: policy.confidence,
-        interval_method: policy.interval_method,
+        intervals: policy.intervals(),
         holdout_uses,
         today,
         waivers: Vec::new(),
         inconclusive_fails: policy.inconclusive == Inconclusive::Fail,
-        bootstrap_resamples: policy.bootstrap_resamples,
-        seed: policy.seed,
         base: None,
         base_split: None,
     };
@@ -94,7 +85,7 @@ pub fn evaluate(
                 inconclusive_fails: b.inconclusive == Inconclusive::Fail,
                 waivers: waiver_views(b, &model.name),
             });
-            assess(model, policy, &context, interval)
+            assess(model, policy, &context)
         })
         .collect();
     Assessment {
@@ -117,12 +108,8 @@ fn waiver_views(policy: &Policy, model: &str) -> Vec<WaiverView> {
         .collect()
 }
 
-fn assess(
-    model: Model,
-    policy: &Policy,
-    context: &Context,
-    interval: IntervalSettings,
-) -> ModelAssessment {
+fn assess(model: Model, policy: &Policy, context: &Context) -> ModelAssessment {
+    let interval = context.intervals;
     let (settings, sources) = policy.settings_for(&model.name);
     let recomputed = estimate::recompute(&model, interval);
     let subject = Subject {

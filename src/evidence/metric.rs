@@ -13,16 +13,9 @@ use serde::Serialize;
 use super::{Columns, PredictionSet, pair_by_id};
 use crate::manifest::Metric;
 use crate::manifest::raw::F1Mode;
-use crate::stats::{self, ConfusionMatrix, F1Average, Interval, ProportionMethod};
-
-/// Interval settings from the policy.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Settings {
-    pub confidence: f64,
-    pub method: ProportionMethod,
-    pub resamples: u32,
-    pub seed: u64,
-}
+use crate::stats::{
+    self, ConfusionMatrix, F1Average, Interval, IntervalSettings as Settings, ProportionMethod,
+};
 
 /// How a recomputed interval was obtained.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, schemars::JsonSchema)]

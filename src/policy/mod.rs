@@ -182,6 +182,16 @@ impl Policy {
         Ok(policy)
     }
 
+    /// How every interval of the check is formed.
+    pub fn intervals(&self) -> crate::stats::IntervalSettings {
+        crate::stats::IntervalSettings {
+            confidence: self.confidence,
+            method: self.interval_method,
+            resamples: self.bootstrap_resamples,
+            seed: self.seed,
+        }
+    }
+
     /// The rule settings for one model, with where each rule's settings came from.
     pub fn settings_for(
         &self,

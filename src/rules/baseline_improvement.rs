@@ -65,13 +65,7 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
     let (Some(p), Some(set)) = (&model.predictions, &baseline.set) else {
         return folds_only(subject, ctx, baseline, min);
     };
-    let settings = crate::evidence::metric::Settings {
-        confidence: ctx.confidence,
-        method: ctx.interval_method,
-        resamples: ctx.bootstrap_resamples,
-        seed: ctx.seed,
-    };
-    let c = match compare(&p.set, set, model.metric, p.f1, settings) {
+    let c = match compare(&p.set, set, model.metric, p.f1, ctx.intervals) {
         Ok(c) => c,
         Err(why) => {
             return Outcome::inconclusive(format!(
@@ -99,7 +93,7 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
             "interval",
             "Interval for the improvement",
             c.interval,
-            ctx.confidence,
+            ctx.intervals.confidence,
         ),
         Evidence::number("p_value", "p-value", c.p_value, Quantity::Probability),
         Evidence::number(
@@ -128,7 +122,7 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
             evidence,
         );
     }
-    let significant = c.p_value < 1.0 - ctx.confidence;
+    let significant = c.p_value < 1.0 - ctx.intervals.confidence;
     let meaningful = c.interval.lower > min;
     Outcome::judge(
         significant && meaningful && c.improvement > 0.0,
@@ -169,7 +163,7 @@ fn folds_only(subject: &Subject, ctx: &Context, baseline: &Baseline, min: f64) -
         .map(|f| f.rows as f64 / (distinct - f.rows as f64).max(1.0))
         .sum::<f64>()
         / folds.len() as f64;
-    let t = match stats::corrected_resampled_t(&diffs, ratio, ctx.confidence) {
+    let t = match stats::corrected_resampled_t(&diffs, ratio, ctx.intervals.confidence) {
         Ok(t) => t,
         Err(e) => {
             return Outcome::inconclusive(format!(
@@ -201,7 +195,7 @@ fn folds_only(subject: &Subject, ctx: &Context, baseline: &Baseline, min: f64) -
             "interval",
             "Interval for the improvement",
             t.interval,
-            ctx.confidence,
+            ctx.intervals.confidence,
         ),
         Evidence::number("t", "Corrected t", t.t, Quantity::Score),
         Evidence::number("p_value", "p-value", t.p_value, Quantity::Probability),
@@ -212,7 +206,7 @@ fn folds_only(subject: &Subject, ctx: &Context, baseline: &Baseline, min: f64) -
             Quantity::Score,
         ),
     ];
-    let significant = t.p_value < 1.0 - ctx.confidence;
+    let significant = t.p_value < 1.0 - ctx.intervals.confidence;
     Outcome::judge(
         significant && t.interval.lower > min && t.mean > 0.0,
         "On the same {folds} CV folds the model improves on {baseline} by {improvement} per fold \

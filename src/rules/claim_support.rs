@@ -84,7 +84,7 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
         "interval",
         "Interval",
         interval,
-        ctx.confidence,
+        ctx.intervals.confidence,
     ));
     evidence.push(Evidence::count(
         "rows",

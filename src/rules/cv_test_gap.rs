@@ -62,7 +62,8 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
     let within_bound = gap.abs() <= settings.max_gap;
     let noise = match (cv.correct, test.correct) {
         (Some(x1), Some(x2)) => {
-            let interval = stats::newcombe_difference(x1, cv.rows, x2, test.rows, ctx.confidence);
+            let interval =
+                stats::newcombe_difference(x1, cv.rows, x2, test.rows, ctx.intervals.confidence);
             let z = stats::two_proportion_z_test(x1, cv.rows, x2, test.rows);
             match (interval, z) {
                 (Ok(interval), Ok(z)) => {
@@ -70,7 +71,7 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
                         "gap_interval",
                         "Interval for the gap (Newcombe)",
                         interval,
-                        ctx.confidence,
+                        ctx.intervals.confidence,
                     ));
                     evidence.push(Evidence::number(
                         "z",

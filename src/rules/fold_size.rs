@@ -101,7 +101,7 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
         settings.margin,
         Quantity::Score,
     ));
-    if let Ok(rows) = stats::cochran_rows_ceil(0.5, settings.margin, ctx.confidence) {
+    if let Ok(rows) = stats::cochran_rows_ceil(0.5, settings.margin, ctx.intervals.confidence) {
         evidence.push(Evidence::count(
             "rows_needed_worst",
             "Rows for the margin at p = 0.5",
@@ -116,7 +116,7 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
             (p * (1.0 - p) / smallest as f64).sqrt(),
             Quantity::Score,
         ));
-        if let Ok(rows) = stats::cochran_rows_ceil(p, settings.margin, ctx.confidence) {
+        if let Ok(rows) = stats::cochran_rows_ceil(p, settings.margin, ctx.intervals.confidence) {
             evidence.push(Evidence::count(
                 "rows_needed",
                 "Rows for the margin at the CV estimate",

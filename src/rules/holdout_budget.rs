@@ -62,7 +62,7 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
             evidence,
         );
     }
-    let alpha = 1.0 - ctx.confidence;
+    let alpha = 1.0 - ctx.intervals.confidence;
     if let Some(test) = &subject.test {
         if let Ok(margin) = stats::hoeffding_margin(test.rows, alpha, looks) {
             evidence.push(Evidence::number(
@@ -75,7 +75,7 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
         if let (Some(correct), Some(_)) = (test.correct, test.interval) {
             let adjusted = 1.0 - alpha / looks as f64;
             if let Ok(interval) =
-                stats::proportion_interval(correct, test.rows, adjusted, ctx.interval_method)
+                stats::proportion_interval(correct, test.rows, adjusted, ctx.intervals.method)
             {
                 evidence.push(Evidence::interval(
                     "adjusted_interval",

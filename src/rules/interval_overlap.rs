@@ -37,8 +37,13 @@ fn check(subject: &Subject, ctx: &Context, _settings: &RuleSettings) -> Outcome 
         );
     };
     let evidence = vec![
-        Evidence::interval("cv_interval", "CV interval", cv, ctx.confidence),
-        Evidence::interval("test_interval", "Test interval", test, ctx.confidence),
+        Evidence::interval("cv_interval", "CV interval", cv, ctx.intervals.confidence),
+        Evidence::interval(
+            "test_interval",
+            "Test interval",
+            test,
+            ctx.intervals.confidence,
+        ),
     ];
     Outcome::judge(
         cv.overlaps(&test),

@@ -14,7 +14,7 @@ use serde::Deserialize;
 use crate::estimate::Estimate;
 use crate::finding::{Evidence, Severity, Status};
 use crate::manifest::Model;
-use crate::stats::ProportionMethod;
+use crate::stats::{IntervalSettings, ProportionMethod};
 
 pub mod baseline_improvement;
 pub mod claim_support;
@@ -311,8 +311,8 @@ pub struct WaiverView {
 /// What every rule may read besides its subject.
 #[derive(Debug, Clone)]
 pub struct Context {
-    pub confidence: f64,
-    pub interval_method: ProportionMethod,
+    /// Confidence, proportion method and bootstrap settings of every interval and test.
+    pub intervals: IntervalSettings,
     /// Every scoring of each test split (by fingerprint) in the whole check.
     pub holdout_uses: BTreeMap<String, Vec<HoldoutUse>>,
     /// The date waivers are judged against.
@@ -321,9 +321,6 @@ pub struct Context {
     pub waivers: Vec<WaiverView>,
     /// Whether an inconclusive rule fails at its severity (the policy's `inconclusive: fail`).
     pub inconclusive_fails: bool,
-    /// Bootstrap resamples and seed, for paired comparisons without a closed form.
-    pub bootstrap_resamples: u32,
-    pub seed: u64,
     /// The base branch's policy as it applies to the model being checked, when given.
     pub base: Option<BasePolicy>,
     /// With a base report: the model's test fingerprint there (`None` inside when the model is

@@ -39,19 +39,19 @@ fn check(_subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome 
         );
     };
     let mut changes = settings.changes(&base.settings);
-    if ctx.confidence != base.confidence {
+    if ctx.intervals.confidence != base.confidence {
         changes.push(SettingChange {
             setting: "confidence".into(),
             from: base.confidence.to_string(),
-            to: ctx.confidence.to_string(),
-            looser: ctx.confidence < base.confidence,
+            to: ctx.intervals.confidence.to_string(),
+            looser: ctx.intervals.confidence < base.confidence,
         });
     }
-    if ctx.interval_method != base.interval_method {
+    if ctx.intervals.method != base.interval_method {
         changes.push(SettingChange {
             setting: "interval_method".into(),
             from: format!("{:?}", base.interval_method),
-            to: format!("{:?}", ctx.interval_method),
+            to: format!("{:?}", ctx.intervals.method),
             looser: true,
         });
     }

@@ -174,7 +174,9 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
         Gate::ExpectedMax => optimism.map(|opt| shift(interval, opt)),
         Gate::BiasCorrection => tt.map(|b| shift(interval, b.bias)),
         Gate::BinomialTail => match (tail, subject.test.as_ref().and_then(|t| t.interval)) {
-            (Some(p), Some(test_interval)) if p >= 1.0 - ctx.confidence => Some(test_interval),
+            (Some(p), Some(test_interval)) if p >= 1.0 - ctx.intervals.confidence => {
+                Some(test_interval)
+            }
             (Some(_), Some(_)) => Some(interval),
             _ => None,
         },
@@ -200,7 +202,7 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
         "adjusted_interval",
         "CV interval adjusted for selection",
         adjusted,
-        ctx.confidence,
+        ctx.intervals.confidence,
     ));
     let bound = if higher {
         adjusted.upper

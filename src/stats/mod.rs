@@ -62,3 +62,13 @@ pub use sample_size::{
 };
 pub use selection::{BiasEstimate, SelectionBias};
 pub use special::incomplete_beta;
+
+/// How every interval of a check is formed: the confidence level, the method for proportions,
+/// and the resample count and seed of the bootstraps (so a result can be reproduced).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct IntervalSettings {
+    pub confidence: f64,
+    pub method: ProportionMethod,
+    pub resamples: u32,
+    pub seed: u64,
+}
