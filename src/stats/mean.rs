@@ -6,7 +6,7 @@
 use serde::Serialize;
 
 use super::error::{Result, StatsError, check_unit_open};
-use super::normal_t::t_quantile;
+use super::moments::Moments;
 use super::proportion::Interval;
 
 /// Sample mean, its standard error, the t degrees of freedom and the two-sided interval.
@@ -21,8 +21,8 @@ pub struct MeanEstimate {
 /// Mean of `values` with the two-sided Student-t interval mean ± t₁₋α/₂,ₙ₋₁ · s/√n.
 ///
 /// Method: the one-sample t interval (Student 1908), s the sample standard deviation with
-/// divisor n − 1, computed in two passes (mean first, then squared deviations) to avoid the
-/// cancellation of the one-pass formula. Matches scipy's
+/// divisor n − 1, from Welford's running moments (shared with the per-row metrics), which avoid
+/// the cancellation of the one-pass Σx² formula. Matches scipy's
 /// `ttest_1samp(...).confidence_interval`.
 /// The values are treated as independent; for cross-validation folds that understates the
 /// variance (Nadeau & Bengio 2003), which callers must account for separately.
@@ -41,21 +41,11 @@ pub fn mean_t_interval(values: &[f64], confidence: f64) -> Result<MeanEstimate> 
             value,
         });
     }
-    let n = values.len() as f64;
-    let mean = values.iter().sum::<f64>() / n;
-    let sum_sq: f64 = values.iter().map(|v| (v - mean) * (v - mean)).sum();
-    let std_error = (sum_sq / (n - 1.0) / n).sqrt();
-    let df = n - 1.0;
-    let t = t_quantile(0.5 + 0.5 * confidence, df)?;
-    Ok(MeanEstimate {
-        mean,
-        std_error,
-        df,
-        interval: Interval {
-            lower: mean - t * std_error,
-            upper: mean + t * std_error,
-        },
-    })
+    let mut moments = Moments::default();
+    for &v in values {
+        moments.push(v);
+    }
+    moments.t_estimate(confidence)
 }
 
 #[cfg(test)]
