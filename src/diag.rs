@@ -157,13 +157,18 @@ impl Diagnostics {
 }
 
 /// A problem when a file's `format_version` is not the one this build reads.
-pub fn format_version(file: &str, kind: &str, found: u32, expected: u32) -> Option<Diagnostic> {
-    (found != expected).then(|| {
+pub fn format_version(
+    file: &str,
+    kind: &str,
+    found: &serde_saphyr::Spanned<u32>,
+    expected: u32,
+) -> Option<Diagnostic> {
+    (found.value != expected).then(|| {
         Diagnostic::at(
             file,
-            Place::default(),
+            Place::of(&found.referenced),
             "format_version",
-            format!("expected format version {expected}, found {found}"),
+            format!("expected format version {expected}, found {}", found.value),
         )
         .with_help(format!(
             "this build of vetscore reads {kind} format version {expected}"

@@ -218,5 +218,5 @@ fn a_file_name_cannot_forge_a_log_line() {
         err.lines().all(|l| !l.starts_with("::")),
         "a line starts a workflow command:\n{err}"
     );
-    assert!(err.contains("run\\n::error title=check::all claims supported\\u{1b}[2K.yaml: models: expected at least one model"), "{err}");
+    assert!(err.contains("run\\n::error title=check::all claims supported\\u{1b}[2K.yaml:2:9: models: expected at least one model"), "{err}");
 }

@@ -20,10 +20,11 @@ use super::{Basis, CvScheme, Metric, SearchMethod, Task};
 #[schemars(title = "vetscore results manifest", rename = "Manifest")]
 pub struct RawManifest {
     /// Manifest format version; this build reads version 1.
-    pub format_version: u32,
+    #[schemars(with = "u32")]
+    pub format_version: Spanned<u32>,
     /// The models this run trained and makes claims about.
     #[schemars(with = "Vec<RawModel>")]
-    pub models: Vec<Spanned<RawModel>>,
+    pub models: Spanned<Vec<Spanned<RawModel>>>,
     /// Free-form information about the run; not read by any rule.
     #[serde(default)]
     pub metadata: Option<BTreeMap<String, serde_json::Value>>,

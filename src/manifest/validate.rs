@@ -32,19 +32,19 @@ pub fn validate(file: &str, raw: RawManifest, root: &Path) -> Result<Vec<Model>,
     out.extend(crate::diag::format_version(
         file,
         "manifest",
-        raw.format_version,
+        &raw.format_version,
         FORMAT_VERSION,
     ));
-    if raw.models.is_empty() {
+    if raw.models.value.is_empty() {
         out.push(Diagnostic::at(
             file,
-            Place::default(),
+            Place::of(&raw.models.referenced),
             "models",
             "expected at least one model, found an empty list",
         ));
     }
-    let mut models = Vec::with_capacity(raw.models.len());
-    for (i, spanned) in raw.models.into_iter().enumerate() {
+    let mut models = Vec::with_capacity(raw.models.value.len());
+    for (i, spanned) in raw.models.value.into_iter().enumerate() {
         let mut v = Validator {
             file,
             root,
@@ -131,7 +131,12 @@ impl Validator<'_> {
         );
         let data = self.data(&format!("{path}.data"), raw.data);
         let leakage = self.leakage(place, &format!("{path}.data"), id_files);
-        let beats_baseline = raw.claim.value.beats_baseline;
+        // Where the claim says it beats a baseline, for the message when no baseline is given.
+        let beats_baseline = raw
+            .claim
+            .value
+            .beats_baseline
+            .then(|| Place::of(&raw.claim.referenced));
         // The baseline's file is read with the classes and positive class the model's names.
         let (classes, positive) = raw.predictions.as_ref().map_or((None, None), |p| {
             (p.value.classes.clone(), p.value.positive_class.clone())
@@ -303,13 +308,13 @@ impl Validator<'_> {
         raw: Option<Spanned<super::raw::RawBaseline>>,
         predictions: Option<Pairing<'_>>,
         folds: Option<usize>,
-        beats_baseline: bool,
+        beats_baseline: Option<Place>,
     ) -> Option<super::Baseline> {
         use crate::evidence::read::Expect;
         let Some(spanned) = raw else {
-            if beats_baseline {
+            if let Some(claim) = beats_baseline {
                 self.problem(
-                    Place::default(),
+                    claim,
                     &format!("{path}.claim.beats_baseline"),
                     "a claim to beat the baseline needs `baseline`",
                 );

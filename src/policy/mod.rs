@@ -45,10 +45,12 @@ pub enum Inconclusive {
 #[schemars(title = "vetscore policy", rename = "Policy")]
 pub struct RawPolicy {
     /// Policy format version; this build reads version 1.
-    pub format_version: u32,
+    #[schemars(with = "u32")]
+    pub format_version: Spanned<u32>,
     /// Confidence level of every interval and test, in (0, 1). Default 0.95.
     #[serde(default)]
-    pub confidence: Option<f64>,
+    #[schemars(with = "Option<f64>")]
+    pub confidence: Option<Spanned<f64>>,
     /// Interval for proportions such as accuracy. Default `wilson`.
     #[serde(default)]
     pub interval_method: Option<ProportionMethod>,
@@ -58,7 +60,8 @@ pub struct RawPolicy {
     /// Bootstrap resamples for intervals recomputed from predictions (F1, balanced accuracy,
     /// R²), between 100 and 1,000,000. Default 2000.
     #[serde(default)]
-    pub bootstrap_resamples: Option<u32>,
+    #[schemars(with = "Option<u32>")]
+    pub bootstrap_resamples: Option<Spanned<u32>>,
     /// Seed of every bootstrap, so a report can be reproduced. Default 1.
     #[serde(default)]
     pub seed: Option<u64>,
@@ -270,26 +273,30 @@ pub fn validate(file: &str, raw: RawPolicy, digest: String) -> Result<Policy, Ve
     out.extend(crate::diag::format_version(
         file,
         "policy",
-        raw.format_version,
+        &raw.format_version,
         FORMAT_VERSION,
     ));
     let defaults = Policy::defaults();
-    let confidence = raw.confidence.unwrap_or(defaults.confidence);
+    let confidence = raw
+        .confidence
+        .as_ref()
+        .map_or(defaults.confidence, |c| c.value);
     if !(confidence > 0.0 && confidence < 1.0) {
         out.push(Diagnostic::at(
             file,
-            Place::default(),
+            place_of(&raw.confidence),
             "confidence",
             format!("expected a number between 0 and 1 (exclusive), found {confidence}"),
         ));
     }
     let bootstrap_resamples = raw
         .bootstrap_resamples
-        .unwrap_or(defaults.bootstrap_resamples);
+        .as_ref()
+        .map_or(defaults.bootstrap_resamples, |r| r.value);
     if !(100..=1_000_000).contains(&bootstrap_resamples) {
         out.push(Diagnostic::at(
             file,
-            Place::default(),
+            place_of(&raw.bootstrap_resamples),
             "bootstrap_resamples",
             format!("expected between 100 and 1000000, found {bootstrap_resamples}"),
         ));
@@ -413,6 +420,14 @@ pub fn validate(file: &str, raw: RawPolicy, digest: String) -> Result<Policy, Ve
         overrides,
         waivers,
     })
+}
+
+/// Where an optional top-level setting is in the file (unknown when it is absent).
+fn place_of<T>(setting: &Option<Spanned<T>>) -> Place {
+    setting
+        .as_ref()
+        .map(|s| Place::of(&s.referenced))
+        .unwrap_or_default()
 }
 
 fn setting_problems(
