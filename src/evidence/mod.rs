@@ -46,12 +46,6 @@ impl IdArena {
         &self.bytes[start..self.ends[i] as usize]
     }
 
-    /// Row indices in id order (byte order, which for UTF-8 is code-point order, as Python's
-    /// `sorted` on strings).
-    pub fn sorted_order(&self) -> Vec<u32> {
-        self.sorted().keyed.into_iter().map(|(_, i)| i).collect()
-    }
-
     /// The ids sorted, for fast lookups.
     ///
     /// Comparing ids through the arena is slow for millions of rows, so each id gets a key: the
@@ -152,7 +146,8 @@ impl SortedIds<'_> {
             .map(|w| (w[0].1.min(w[1].1) as usize, w[0].1.max(w[1].1) as usize))
     }
 
-    /// Row indices in id order.
+    /// Row indices in id order (byte order, which for UTF-8 is code-point order, as Python's
+    /// `sorted` on strings).
     pub fn order(&self) -> Vec<u32> {
         self.keyed.iter().map(|&(_, i)| i).collect()
     }
@@ -252,7 +247,7 @@ mod tests {
         for id in ["b", "a", "c"] {
             ids.push(id.as_bytes()).unwrap();
         }
-        let order = ids.sorted_order();
+        let order = ids.sorted().order();
         // sha256 of the bytes "a\nb\nc", computed with Python 3.11 hashlib:
         // hashlib.sha256(b"a\nb\nc").hexdigest()
         assert_eq!(
@@ -281,7 +276,8 @@ mod tests {
             ids.push(w.as_bytes()).unwrap();
         }
         let sorted: Vec<&[u8]> = ids
-            .sorted_order()
+            .sorted()
+            .order()
             .iter()
             .map(|&i| ids.get(i as usize))
             .collect();
