@@ -254,7 +254,14 @@ pub struct Comparison {
     /// The improvement (model better than baseline when positive) and its interval.
     pub improvement: f64,
     pub interval: Interval,
+    /// The p-value to report: the larger of the named test's and the sign-flip bound
+    /// ([`stats::floored_p`]).
     pub p_value: f64,
+    /// The named test's own p-value.
+    pub test_p_value: f64,
+    /// The sign-flip bound: the exact sign-flip p-value on at most 16 per-row (or per-fold)
+    /// differences, else 2/2^m for the m rows on which the two models differ.
+    pub p_floor: f64,
     pub test: &'static str,
     /// McNemar's discordant counts: rows only the model gets right, rows only the baseline does.
     pub discordant: Option<(u64, u64)>,
@@ -281,6 +288,8 @@ pub fn compare(
             upper: 0.0,
         },
         p_value: 1.0,
+        test_p_value: 1.0,
+        p_floor: 1.0,
         test: "",
         discordant: None,
     };
@@ -337,7 +346,7 @@ pub fn compare(
                     comparison.interval =
                         stats::paired_accuracy_difference(b, c, pairs.len() as u64, confidence)
                             .map_err(err)?;
-                    comparison.p_value = test.p_value;
+                    comparison.set_p(test.p_value, None, b + c)?;
                     comparison.test = if test.exact {
                         "McNemar, exact binomial"
                     } else {
@@ -363,7 +372,8 @@ pub fn compare(
                         stats::roc_auc_delong_paired(&xa, &xb, &labels, confidence).map_err(err)?;
                     comparison.improvement = paired.difference;
                     comparison.interval = paired.interval;
-                    comparison.p_value = paired.p_value;
+                    let differing = xa.iter().zip(&xb).filter(|(a, b)| a != b).count();
+                    comparison.set_p(paired.p_value, None, differing as u64)?;
                     comparison.test = "DeLong, paired";
                 }
                 Metric::LogLoss => {
@@ -388,7 +398,7 @@ pub fn compare(
                         |j| -qb[j].max(1e-15).ln(),
                         confidence,
                     )?;
-                    fill_t(&mut comparison, result);
+                    comparison.fill_t(result)?;
                 }
                 Metric::F1 | Metric::BalancedAccuracy => {
                     let (pa, pb) = (
@@ -405,10 +415,12 @@ pub fn compare(
                         ));
                     }
                     let mut joint = vec![0u64; k * k * k];
+                    let mut differing = 0u64;
                     for &(i, j) in &pairs {
                         let b_pred = to_model[pb[j as usize] as usize].ok_or(
                             "the baseline predicts a class the model's file does not have",
                         )?;
+                        differing += u64::from(b_pred != pa[i as usize]);
                         let cell = (aa[i as usize] as usize * k + pa[i as usize] as usize) * k
                             + b_pred as usize;
                         joint[cell] += 1;
@@ -432,7 +444,7 @@ pub fn compare(
                     .map_err(err)?;
                     comparison.improvement = r.difference;
                     comparison.interval = r.interval;
-                    comparison.p_value = r.p_value;
+                    comparison.set_p(r.p_value, None, differing)?;
                     comparison.test = "paired bootstrap of the joint confusion table";
                 }
                 other => {
@@ -467,11 +479,20 @@ pub fn compare(
                 |j| loss(tb[j], yb[j]),
                 confidence,
             )?;
-            fill_t(&mut comparison, result);
+            comparison.fill_t(result)?;
         }
         _ => return Err("the model and the baseline predictions are of different kinds".into()),
     }
     Ok(comparison)
+}
+
+/// A paired t-test on per-row differences, with what the sign-flip bound needs: the count of
+/// rows whose difference is not 0 and, for at most [`stats::SIGN_FLIP_EXACT_UP_TO`] rows, the
+/// differences themselves.
+struct PairedLosses {
+    t: stats::PairedTResult,
+    informative: u64,
+    small: Option<Vec<f64>>,
 }
 
 /// Paired t on per-row loss differences, as baseline loss − model loss (positive is better).
@@ -480,19 +501,51 @@ fn paired_losses(
     model_loss: impl Fn(usize) -> f64,
     baseline_loss: impl Fn(usize) -> f64,
     confidence: f64,
-) -> Result<stats::PairedTResult, String> {
+) -> Result<PairedLosses, String> {
     let mut t = stats::PairedT::new();
+    let mut informative = 0u64;
+    let small_enough = pairs.len() <= stats::SIGN_FLIP_EXACT_UP_TO;
+    let mut small = Vec::new();
     for &(i, j) in pairs {
-        t.push(baseline_loss(j as usize) - model_loss(i as usize));
+        let d = baseline_loss(j as usize) - model_loss(i as usize);
+        informative += u64::from(d != 0.0);
+        if small_enough {
+            small.push(d);
+        }
+        t.push(d);
     }
-    t.finish(confidence).map_err(|e| e.to_string())
+    Ok(PairedLosses {
+        t: t.finish(confidence).map_err(|e| e.to_string())?,
+        informative,
+        small: small_enough.then_some(small),
+    })
 }
 
-fn fill_t(comparison: &mut Comparison, result: stats::PairedTResult) {
-    comparison.improvement = result.mean;
-    comparison.interval = result.interval;
-    comparison.p_value = result.p_value;
-    comparison.test = "paired t on per-row losses";
+impl Comparison {
+    /// Records the named test's p-value and reports the larger of it and the sign-flip bound.
+    fn set_p(
+        &mut self,
+        test_p: f64,
+        diffs: Option<&[f64]>,
+        informative: u64,
+    ) -> Result<(), String> {
+        let (p, bound) = stats::floored_p(test_p, diffs, informative).map_err(|e| e.to_string())?;
+        self.test_p_value = test_p;
+        self.p_floor = bound;
+        self.p_value = p;
+        Ok(())
+    }
+
+    fn fill_t(&mut self, losses: PairedLosses) -> Result<(), String> {
+        self.improvement = losses.t.mean;
+        self.interval = losses.t.interval;
+        self.test = "paired t on per-row losses";
+        self.set_p(
+            losses.t.p_value,
+            losses.small.as_deref(),
+            losses.informative,
+        )
+    }
 }
 
 #[cfg(test)]

@@ -27,7 +27,16 @@ class, model's prediction, baseline's prediction) counts; for log loss, RMSE (sq
 MAE and R² a paired t-test on per-row loss differences. When \
 the baseline has no test predictions but was scored on the model's cross-validation folds \
 (`baseline.cv_fold_scores`), the Nadeau & Bengio (2003) corrected resampled t-test on the fold \
-differences, whose variance allows for the overlap between training sets. It \
+differences, whose variance allows for the overlap between training sets. Few or identical \
+differences: no paired test on m rows (or folds) whose two results differ can honestly give a \
+p-value below 2/2^m, since under \"no difference\" all 2^m swaps of the two results are equally \
+likely and two of them are as extreme as the data (the exact sign-flip permutation test of \
+Fisher 1935 and Pitman 1937). The reported p-value is therefore the larger of the named test's \
+and the sign-flip test's: exact, by enumeration, on up to 16 differences, and 2/2^m beyond \
+(2 folds can never do better than 0.5, 3 folds than 0.25, 5 than 0.0625). When every difference \
+is the same (zero spread, or a spread within float rounding, 1e-9 of the interval's bounds) \
+the test has no spread to measure uncertainty by and its interval has no width: a result that \
+would pass is then inconclusive instead. It \
 fails when the difference is not significant at the policy's confidence, when the interval's \
 lower bound does not exceed `min_improvement`, when ids are missing from either file, or when \
 the two files disagree on a row's true label. Two models scored on different rows cannot be \
@@ -97,6 +106,18 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
         ),
         Evidence::number("p_value", "p-value", c.p_value, Quantity::Probability),
         Evidence::number(
+            "test_p_value",
+            "p-value of the named test",
+            c.test_p_value,
+            Quantity::Probability,
+        ),
+        Evidence::number(
+            "p_floor",
+            "Smallest p-value these rows allow (sign-flip test)",
+            c.p_floor,
+            Quantity::Probability,
+        ),
+        Evidence::number(
             "min_improvement",
             "Smallest improvement worth claiming",
             min,
@@ -124,15 +145,39 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
     }
     let significant = c.p_value < 1.0 - ctx.intervals.confidence;
     let meaningful = c.interval.lower > min;
-    Outcome::judge(
+    judge(
         significant && meaningful && c.improvement > 0.0,
-        "On {paired_rows} paired rows the model improves on {baseline} by {improvement} \
-         (interval {interval}, p = {p_value}, {test}).",
-        "On {paired_rows} paired rows the improvement over {baseline} is {improvement} (interval \
-         {interval}, p = {p_value}, {test}): not enough to claim the model is better (the \
-         interval must lie above {min_improvement}).",
+        c.interval,
+        [
+            "On {paired_rows} paired rows the model improves on {baseline} by {improvement} \
+             (interval {interval}, p = {p_value}, {test}).",
+            "On {paired_rows} paired rows the improvement over {baseline} is {improvement} \
+             (interval {interval}, p = {p_value}, {test}): not enough to claim the model is \
+             better (the interval must lie above {min_improvement}).",
+            "On {paired_rows} paired rows the model and {baseline} differ by the same \
+             {improvement} everywhere, so the interval {interval} has no width and the test \
+             ({test}) has no spread to measure uncertainty by; p = {p_value} is the most these \
+             rows allow. A gain without any variation does not show the model is better.",
+        ],
         evidence,
     )
+}
+
+/// Pass or fail on `ok`; but an outcome that would pass on an interval with no spread (every
+/// difference the same, up to float rounding) is inconclusive: the test estimated no
+/// uncertainty, which identical differences cannot justify. `sentences` are pass, fail and
+/// no-spread.
+fn judge(
+    ok: bool,
+    interval: stats::Interval,
+    sentences: [&str; 3],
+    evidence: Vec<Evidence>,
+) -> Outcome {
+    let [pass, fail, spread_free] = sentences;
+    if ok && stats::no_spread(interval) {
+        return Outcome::new(Status::Inconclusive, spread_free, evidence);
+    }
+    Outcome::judge(ok, pass, fail, evidence)
 }
 
 /// Without paired predictions: the Nadeau & Bengio (2003) corrected resampled t-test on the
@@ -163,7 +208,12 @@ fn folds_only(subject: &Subject, ctx: &Context, baseline: &Baseline, min: f64) -
         .map(|f| f.rows as f64 / (distinct - f.rows as f64).max(1.0))
         .sum::<f64>()
         / folds.len() as f64;
-    let t = match stats::corrected_resampled_t(&diffs, ratio, ctx.intervals.confidence) {
+    let tested =
+        stats::corrected_resampled_t(&diffs, ratio, ctx.intervals.confidence).and_then(|t| {
+            let differing = diffs.iter().filter(|&&d| d != 0.0).count() as u64;
+            stats::floored_p(t.p_value, Some(&diffs), differing).map(|p| (t, p))
+        });
+    let (t, (p_value, p_floor)) = match tested {
         Ok(t) => t,
         Err(e) => {
             return Outcome::inconclusive(format!(
@@ -198,7 +248,19 @@ fn folds_only(subject: &Subject, ctx: &Context, baseline: &Baseline, min: f64) -
             ctx.intervals.confidence,
         ),
         Evidence::number("t", "Corrected t", t.t, Quantity::Score),
-        Evidence::number("p_value", "p-value", t.p_value, Quantity::Probability),
+        Evidence::number("p_value", "p-value", p_value, Quantity::Probability),
+        Evidence::number(
+            "test_p_value",
+            "p-value of the corrected t",
+            t.p_value,
+            Quantity::Probability,
+        ),
+        Evidence::number(
+            "p_floor",
+            "Smallest p-value these folds allow (sign-flip test)",
+            p_floor,
+            Quantity::Probability,
+        ),
         Evidence::number(
             "min_improvement",
             "Smallest improvement worth claiming",
@@ -206,14 +268,22 @@ fn folds_only(subject: &Subject, ctx: &Context, baseline: &Baseline, min: f64) -
             Quantity::Score,
         ),
     ];
-    let significant = t.p_value < 1.0 - ctx.intervals.confidence;
-    Outcome::judge(
+    let significant = p_value < 1.0 - ctx.intervals.confidence;
+    judge(
         significant && t.interval.lower > min && t.mean > 0.0,
-        "On the same {folds} CV folds the model improves on {baseline} by {improvement} per fold \
-         (interval {interval}, p = {p_value}, {test}); there are no test predictions to pair.",
-        "On the same {folds} CV folds the improvement over {baseline} is {improvement} per fold \
-         (interval {interval}, p = {p_value}, {test}): not enough to claim the model is better \
-         (the interval must lie above {min_improvement}).",
+        t.interval,
+        [
+            "On the same {folds} CV folds the model improves on {baseline} by {improvement} per \
+             fold (interval {interval}, p = {p_value}, {test}); there are no test predictions \
+             to pair.",
+            "On the same {folds} CV folds the improvement over {baseline} is {improvement} per \
+             fold (interval {interval}, p = {p_value}, {test}): not enough to claim the model is \
+             better (the interval must lie above {min_improvement}).",
+            "On the same {folds} CV folds the model beats {baseline} by the same {improvement} \
+             on every fold, so the interval {interval} has no width and the test ({test}) has \
+             no spread to measure uncertainty by; p = {p_value} is the most these folds allow. \
+             A gain without any variation does not show the model is better.",
+        ],
         evidence,
     )
 }

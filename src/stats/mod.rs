@@ -9,7 +9,8 @@
 //! (`rounding`). Per-example evidence: metrics recomputed from streamed predictions with sklearn's
 //! conventions (`metrics`, on Welford moments in `moments`), ROC AUC with DeLong's variance
 //! (`delong`), paired tests — McNemar, paired accuracy difference, paired and corrected resampled
-//! t (`paired`) — and seeded bootstraps (`bootstrap`, on the portable generator in `rng`).
+//! t (`paired`), the exact sign-flip test and the floor it puts under any paired p-value
+//! (`sign_flip`) — and seeded bootstraps (`bootstrap`, on the portable generator in `rng`).
 //!
 //! Every public function validates its arguments and returns [`Result`]; the `statrs` calls that
 //! panic on NaN or loop forever on huge shapes are only reached with checked arguments, and the
@@ -34,6 +35,7 @@ mod rng;
 mod rounding;
 mod sample_size;
 mod selection;
+mod sign_flip;
 mod special;
 
 pub use binomial::{best_of_n_tail, binomial_sf_ge};
@@ -61,6 +63,9 @@ pub use sample_size::{
     cochran_rows, cochran_rows_ceil, hoeffding_margin, hoeffding_rows, hoeffding_rows_ceil,
 };
 pub use selection::{BiasEstimate, SelectionBias};
+pub use sign_flip::{
+    NO_SPREAD_RELATIVE, SIGN_FLIP_EXACT_UP_TO, floored_p, no_spread, sign_flip_exact, swap_floor,
+};
 pub use special::incomplete_beta;
 
 /// How every interval of a check is formed: the confidence level, the method for proportions,
