@@ -30,3 +30,30 @@ fn sign_flip_matches_scipy_permutation_test() {
         common::assert_close(&format!("sign flip {d:?}"), p, num(&case["p"]), 1e-12);
     }
 }
+
+#[test]
+fn auc_score_interval_matches_a_root_finder() {
+    // The score-type interval's equation (Hanley & McNeil 1982 variance at θ, N* = (m + n)/2 as
+    // in Newcombe 2006) solved by scipy.optimize.brentq; at m = n = 1 it is Wilson's interval
+    // for 1/1, whose lower end 1/(1 + z²) = 0.2065 is a fact of the trade.
+    let values = values();
+    let cases = values["auc_score"].as_array().unwrap();
+    assert!(cases.len() >= 6);
+    for case in cases {
+        let (auc, m, n) = (
+            num(&case["auc"]),
+            case["m"].as_u64().unwrap(),
+            case["n"].as_u64().unwrap(),
+        );
+        let i = stats::auc_score_interval(auc, m, n, 0.95).unwrap();
+        let what = format!("AUC {auc} on {m} + {n}");
+        common::assert_close(&format!("{what} lower"), i.lower, num(&case["lower"]), 1e-9);
+        common::assert_close(&format!("{what} upper"), i.upper, num(&case["upper"]), 1e-9);
+        assert!(
+            i.upper - i.lower > 0.0,
+            "{what}: the interval keeps its width"
+        );
+    }
+    assert!(stats::auc_score_interval(0.5, 0, 3, 0.95).is_err());
+    assert!(stats::auc_score_interval(1.5, 3, 3, 0.95).is_err());
+}

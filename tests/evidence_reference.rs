@@ -497,7 +497,7 @@ fn delong_matches_the_direct_structural_components() {
         let (auc_b, var_b, _) = direct_delong(&b, &a, &y);
         let est = roc_auc_delong(&a, &y, 0.95).unwrap();
         close(est.auc, auc_a, 1e-12, "auc");
-        close_rel(est.variance, var_a, 1e-9, "variance");
+        close_rel(est.variance.unwrap(), var_a, 1e-9, "variance");
         let p = roc_auc_delong_paired(&a, &b, &y, 0.95).unwrap();
         close(p.auc_a, auc_a, 1e-12, "paired auc a");
         close(p.auc_b, auc_b, 1e-12, "paired auc b");
@@ -509,16 +509,22 @@ fn delong_matches_the_direct_structural_components() {
         let half = 1.959_963_985 * var_diff.sqrt();
         close(p.interval.lower, auc_a - auc_b - half, 1e-9, "lower");
         close(p.interval.upper, auc_a - auc_b + half, 1e-9, "upper");
+        // One model: DeLong's normal interval, widened at each end to the score-type interval
+        // (checked against scipy in tests/edge_reference.rs) where that is wider.
         let half = 1.959_963_985 * var_a.sqrt();
+        let positives = y.iter().filter(|&&l| l).count() as u64;
+        let score =
+            vetscore::stats::auc_score_interval(auc_a, positives, y.len() as u64 - positives, 0.95)
+                .unwrap();
         close(
             est.interval.lower,
-            (auc_a - half).max(0.0),
+            (auc_a - half).max(0.0).min(score.lower),
             1e-9,
             "auc lower",
         );
         close(
             est.interval.upper,
-            (auc_a + half).min(1.0),
+            (auc_a + half).min(1.0).max(score.upper),
             1e-9,
             "auc upper",
         );
@@ -541,16 +547,18 @@ fn hanley_mcneil_rating_example() {
     let est = roc_auc_delong(&scores, &labels, 0.95).unwrap();
     assert!((est.auc - 0.893).abs() < 0.0005);
     let (_, var, _) = direct_delong(&scores, &scores, &labels);
-    close_rel(est.variance, var, 1e-9, "variance");
+    close_rel(est.variance.unwrap(), var, 1e-9, "variance");
 }
 
 #[test]
 fn delong_degenerate_cases() {
-    // Perfect separation: AUC 1, every component 1, variance 0, point interval (by definition).
+    // Perfect separation: AUC 1, every component 1, DeLong variance 0; the interval keeps the
+    // width of the score-type interval (its values: tests/edge_reference.rs).
     let y = [false, false, true, true];
     let e = roc_auc_delong(&[0.1, 0.2, 0.8, 0.9], &y, 0.95).unwrap();
-    assert_eq!((e.auc, e.variance), (1.0, 0.0));
-    assert_eq!((e.interval.lower, e.interval.upper), (1.0, 1.0));
+    assert_eq!((e.auc, e.variance), (1.0, Some(0.0)));
+    assert_eq!(e.interval.upper, 1.0);
+    assert!(e.interval.lower < 0.9);
     // All scores tied: AUC ½ (every pair counts ½).
     let e = roc_auc_delong(&[0.3; 4], &y, 0.95).unwrap();
     assert_eq!(e.auc, 0.5);

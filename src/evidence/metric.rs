@@ -1,7 +1,9 @@
 //! The metric, its interval and paired comparisons, recomputed from predictions (pure).
 //!
 //! Intervals by metric: accuracy, a binomial interval on the count of correct rows (the
-//! policy's method); ROC AUC, DeLong et al. (1988) by the algorithm of Sun & Xu (2014); log loss
+//! policy's method); ROC AUC, DeLong et al. (1988) by the algorithm of Sun & Xu (2014), widened
+//! to a score-type interval where that is wider, so it keeps its width at AUC = 0, ½ (all tied)
+//! and 1 and with one row per class (`stats::roc_auc_delong`); log loss
 //! and MAE, a Student-t interval over per-row losses; RMSE, the square root of a t interval on
 //! the mean squared error; balanced accuracy and F1, a seeded bootstrap that resamples the
 //! confusion-matrix counts; R², a seeded row bootstrap. Resample count and seed come from the
@@ -21,10 +23,18 @@ use crate::stats::{
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, schemars::JsonSchema)]
 #[serde(tag = "kind", rename_all = "snake_case")]
 pub enum Method {
-    Proportion { method: ProportionMethod },
+    Proportion {
+        method: ProportionMethod,
+    },
+    /// DeLong et al. (1988), widened to the score-type AUC interval where that is wider.
     DeLong,
+    /// The score-type AUC interval alone: a class has one row, so DeLong's variance is undefined.
+    MannWhitneyScore,
     RowMean,
-    Bootstrap { resamples: u32, seed: u64 },
+    Bootstrap {
+        resamples: u32,
+        seed: u64,
+    },
 }
 
 /// The metric recomputed from predictions.
@@ -101,8 +111,26 @@ fn binary_scores(set: &PredictionSet) -> Result<(&[f64], Vec<bool>), String> {
     Ok((score, actual.iter().map(|&a| a == positive).collect()))
 }
 
-/// Recomputes `metric` with its interval; `Err` says why it cannot be.
+/// Recomputes `metric` with its interval; `Err` says why it cannot be. The interval is clipped
+/// to the metric's range ([`Metric::range`]): the t intervals over per-row losses (log loss,
+/// MAE) reach below 0 when a few large losses dominate the spread, and a report must not show a
+/// negative loss as plausible.
 pub fn recompute(
+    set: &PredictionSet,
+    metric: Metric,
+    f1: F1Mode,
+    s: Settings,
+) -> Result<Recomputed, String> {
+    let mut r = recompute_unclipped(set, metric, f1, s)?;
+    let (low, high) = metric.range();
+    r.interval = Interval {
+        lower: r.interval.lower.clamp(low, high),
+        upper: r.interval.upper.clamp(low, high),
+    };
+    Ok(r)
+}
+
+fn recompute_unclipped(
     set: &PredictionSet,
     metric: Metric,
     f1: F1Mode,
@@ -160,7 +188,11 @@ pub fn recompute(
             Ok(Recomputed {
                 value: auc.auc,
                 interval: auc.interval,
-                method: Method::DeLong,
+                method: if auc.variance.is_some() {
+                    Method::DeLong
+                } else {
+                    Method::MannWhitneyScore
+                },
                 rows,
                 correct: None,
             })
@@ -368,8 +400,8 @@ pub fn compare(
                         .collect();
                     let xa: Vec<f64> = pairs.iter().map(|&(i, _)| sa[i as usize]).collect();
                     let xb: Vec<f64> = pairs.iter().map(|&(_, j)| sb[j as usize]).collect();
-                    let paired =
-                        stats::roc_auc_delong_paired(&xa, &xb, &labels, confidence).map_err(err)?;
+                    let paired = stats::roc_auc_delong_paired(&xa, &xb, &labels, confidence)
+                        .map_err(|e| format!("DeLong's paired test: {e}"))?;
                     comparison.improvement = paired.difference;
                     comparison.interval = paired.interval;
                     let differing = xa.iter().zip(&xb).filter(|(a, b)| a != b).count();

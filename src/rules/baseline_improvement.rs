@@ -21,7 +21,8 @@ pub const RULE: RuleInfo = RuleInfo {
 with a paired test on the rows both were scored on, matched by id: for accuracy McNemar's test \
 (McNemar 1947; exact binomial on the discordant pairs when there are fewer than 25, chi-square \
 with continuity correction otherwise) with the Agresti & Min (2005) interval for the difference \
-of paired proportions; for ROC AUC DeLong's paired test (DeLong, DeLong & Clarke-Pearson 1988); \
+of paired proportions; for ROC AUC DeLong's paired test (DeLong, DeLong & Clarke-Pearson 1988), which needs two rows \
+of each class (with one, the comparison is inconclusive and says so); \
 for F1 and balanced accuracy a seeded paired bootstrap that resamples the joint table of (true \
 class, model's prediction, baseline's prediction) counts; for log loss, RMSE (squared error), \
 MAE and R² a paired t-test on per-row loss differences. When \

@@ -23,7 +23,15 @@ its interval then serve as the test estimate of every other rule: a binomial int
 accuracy, DeLong's interval for ROC AUC (DeLong, DeLong & Clarke-Pearson 1988, by the fast \
 algorithm of Sun & Xu 2014), a t interval over per-row losses for log loss, MAE and RMSE, and a \
 seeded bootstrap for F1, balanced accuracy (resampling confusion-matrix counts) and R² \
-(resampling rows). Without a predictions file the rule is skipped.",
+(resampling rows). Every such interval is clipped to the metric's range (a loss's t interval \
+can reach below 0 when a few large losses make the spread). At the boundaries of ROC AUC, \
+DeLong's variance is 0 (perfect separation, AUC = 1 or 0; every score tied, AUC = 0.5) or \
+undefined (one positive or one negative row), and its interval would be a point; so each end \
+of the AUC interval is the wider of DeLong's and a score-type interval's, which solves \
+(AUC − θ)² = z²·V(θ) with the Hanley & McNeil (1982) variance evaluated at θ (in the form of \
+Newcombe 2006) and keeps its width there: 2 + 2 perfectly separated rows give [0.386, 1], one \
+row of each class [0.207, 1], the same as Wilson's interval for 1 of 1. A file with no positive \
+or no negative row has no AUC. Without a predictions file the rule is skipped.",
     check,
     severity_from_base: false,
 };

@@ -1,6 +1,7 @@
 //! ROC AUC with DeLong's variance, for one model and for two models scored on the same rows.
 //!
-//! Owns: [`AucEstimate`], [`roc_auc_delong`], [`PairedAuc`], [`roc_auc_delong_paired`].
+//! Owns: [`AucEstimate`], [`roc_auc_delong`], [`auc_score_interval`], [`PairedAuc`],
+//! [`roc_auc_delong_paired`].
 //!
 //! Method: the AUC is the Mann–Whitney statistic θ = P(X > Y) + ½P(X = Y) for a positive's score
 //! X and a negative's Y. DeLong, DeLong & Clarke-Pearson (1988), Biometrics 44:837–845, write it
@@ -28,11 +29,16 @@ use super::error::{Result, StatsError, check_unit_open};
 use super::normal_t::{normal_sf, z_two_sided};
 use super::proportion::Interval;
 
-/// One model's ROC AUC, its DeLong variance and a normal interval.
+/// One model's ROC AUC, its DeLong variance and its interval.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct AucEstimate {
     pub auc: f64,
-    pub variance: f64,
+    /// DeLong's variance; `None` when a class has a single row (the variance of its structural
+    /// components divides by the class size − 1).
+    pub variance: Option<f64>,
+    /// DeLong's normal interval widened, at either end, to the score-type interval
+    /// ([`auc_score_interval`]) where that is wider; the score-type interval alone when the
+    /// variance is `None`.
     pub interval: Interval,
     pub positives: u64,
     pub negatives: u64,
@@ -85,8 +91,9 @@ struct Components {
     v01: Vec<f64>,
 }
 
-/// Checks lengths, finiteness and class counts; returns (positives, negatives).
-fn check_inputs(scores: &[&[f64]], labels: &[bool]) -> Result<(usize, usize)> {
+/// Checks lengths, finiteness and class counts (at least `per_class` of each); returns
+/// (positives, negatives).
+fn check_inputs(scores: &[&[f64]], labels: &[bool], per_class: usize) -> Result<(usize, usize)> {
     for (s, name) in scores.iter().zip(["scores_a", "scores_b"]) {
         if s.len() != labels.len() {
             return Err(StatsError::LengthMismatch {
@@ -101,10 +108,13 @@ fn check_inputs(scores: &[&[f64]], labels: &[bool]) -> Result<(usize, usize)> {
     }
     let positives = labels.iter().filter(|&&l| l).count();
     let negatives = labels.len() - positives;
-    // The component variances divide by m − 1 and n − 1.
-    for got in [positives, negatives] {
-        if got < 2 {
-            return Err(StatsError::TooFewValues { needed: 2, got });
+    for (got, class) in [(positives, "positive"), (negatives, "negative")] {
+        if got < per_class {
+            return Err(StatsError::TooFewInClass {
+                class,
+                needed: per_class,
+                got,
+            });
         }
     }
     Ok((positives, negatives))
@@ -146,30 +156,102 @@ fn component_variance(a: &[f64], b: Option<&[f64]>) -> f64 {
     (0..a.len()).map(|i| (value(i) - mean).powi(2)).sum::<f64>() / (len - 1.0)
 }
 
-/// ROC AUC of `scores` for `labels` (true = positive) with DeLong's variance and a two-sided
-/// normal interval AUC ± z·√Var, **clipped to [0, 1]** (the Wald interval can cross the bounds
-/// near AUC = 1; the clipped interval is what a report should show).
+/// Score-type interval for an AUC of `auc` from `m` positives and `n` negatives: the θ with
+/// (AUC − θ)² = z²·V(θ), V the Hanley & McNeil (1982) variance of the Mann–Whitney AUC written
+/// as a function of θ,
+/// V(θ) = θ(1 − θ)/(mn) · [1 + (N* − 1)·((1 − θ)/(2 − θ) + θ/(1 + θ))], N* = (m + n)/2,
+/// where Hanley & McNeil's Q₁ = θ/(2 − θ) and Q₂ = 2θ²/(1 + θ) are substituted and their m − 1
+/// and n − 1 replaced by N* − 1, as in Newcombe (2006), "Confidence intervals for an effect size
+/// measure based on the Mann–Whitney statistic. Part 2: asymptotic methods and evaluation",
+/// Stat. Med. 25:559–573 (the N* form from memory).
+///
+/// Why: like Wilson's interval for a proportion (which it equals at m = n = 1), it evaluates the
+/// variance at the candidate θ rather than at the estimate, so it keeps its width where every
+/// plug-in variance is 0: at AUC = 1 (perfect separation), AUC = 0, and with one row per class.
+/// Solved by bisection on [0, AUC] and [AUC, 1] (V vanishes at 0 and 1, so each side has a
+/// crossing); 200 halvings reach the last bit.
+/// Errors: m or n is 0; `auc` not in [0, 1]; confidence not in (0, 1).
+pub fn auc_score_interval(auc: f64, m: u64, n: u64, confidence: f64) -> Result<Interval> {
+    check_unit_open("confidence", confidence)?;
+    if !(0.0..=1.0).contains(&auc) {
+        return Err(StatsError::OutOfRange {
+            name: "auc",
+            value: auc,
+            expected: "in [0, 1]",
+        });
+    }
+    for (got, class) in [(m, "positive"), (n, "negative")] {
+        if got == 0 {
+            return Err(StatsError::TooFewInClass {
+                class,
+                needed: 1,
+                got: 0,
+            });
+        }
+    }
+    let z = z_two_sided(confidence)?;
+    let (mf, nf) = (m as f64, n as f64);
+    let star = 0.5 * (mf + nf);
+    let variance = |t: f64| {
+        t * (1.0 - t) / (mf * nf) * (1.0 + (star - 1.0) * ((1.0 - t) / (2.0 - t) + t / (1.0 + t)))
+    };
+    // g < 0 inside the interval, > 0 outside; `inside` is a point where g ≤ 0 (the estimate).
+    let g = |t: f64| (auc - t) * (auc - t) - z * z * variance(t);
+    let bisect = |mut inside: f64, mut outside: f64| {
+        for _ in 0..200 {
+            let mid = 0.5 * (inside + outside);
+            if mid == inside || mid == outside {
+                break;
+            }
+            if g(mid) <= 0.0 {
+                inside = mid;
+            } else {
+                outside = mid;
+            }
+        }
+        inside
+    };
+    let lower = if g(0.0) > 0.0 { bisect(auc, 0.0) } else { 0.0 };
+    let upper = if g(1.0) > 0.0 { bisect(auc, 1.0) } else { 1.0 };
+    Ok(Interval { lower, upper })
+}
+
+/// ROC AUC of `scores` for `labels` (true = positive) with DeLong's variance and an interval
+/// that stays inside [0, 1] and keeps its width at the boundaries.
 ///
 /// Method: DeLong, DeLong & Clarke-Pearson (1988) variance via the midrank algorithm of Sun & Xu
-/// (2014), see the module docs. The AUC equals `sklearn.metrics.roc_auc_score` (ties count ½).
-/// With perfect separation the variance is 0 and the interval is the single point.
-/// Errors: lengths differ; a score NaN or infinite; fewer than two positives or two negatives;
+/// (2014), see the module docs; the normal interval AUC ± z·√Var, clipped to [0, 1]. The AUC
+/// equals `sklearn.metrics.roc_auc_score` (ties count ½). DeLong's variance is 0 when the
+/// structural components do not vary — perfect separation (AUC = 1 or 0) and all scores tied
+/// (AUC = ½) — and undefined with one row in a class; a point interval there would claim
+/// certainty that two rows cannot give. So each end of the interval is the wider of DeLong's
+/// and the score-type interval's ([`auc_score_interval`]), and with a single positive or
+/// negative the score-type interval alone is used (`variance` is then `None`). On ordinary data
+/// DeLong's interval is usually the wider one at both ends.
+/// Errors: lengths differ; a score NaN or infinite; no positive or no negative row;
 /// confidence not in (0, 1).
 pub fn roc_auc_delong(scores: &[f64], labels: &[bool], confidence: f64) -> Result<AucEstimate> {
     check_unit_open("confidence", confidence)?;
-    let (m, n) = check_inputs(&[scores], labels)?;
+    let (m, n) = check_inputs(&[scores], labels, 1)?;
     let z = z_two_sided(confidence)?;
     let c = components(scores, labels, m, n);
-    let variance =
-        component_variance(&c.v10, None) / m as f64 + component_variance(&c.v01, None) / n as f64;
-    let half = z * variance.sqrt();
+    let score = auc_score_interval(c.auc, m as u64, n as u64, confidence)?;
+    let (variance, interval) = if m >= 2 && n >= 2 {
+        let variance = component_variance(&c.v10, None) / m as f64
+            + component_variance(&c.v01, None) / n as f64;
+        let half = z * variance.sqrt();
+        let interval = Interval {
+            lower: (c.auc - half).max(0.0).min(score.lower),
+            upper: (c.auc + half).min(1.0).max(score.upper),
+        };
+        (Some(variance), interval)
+    } else {
+        (None, score)
+    };
     Ok(AucEstimate {
         auc: c.auc,
         variance,
-        interval: Interval {
-            lower: (c.auc - half).max(0.0),
-            upper: (c.auc + half).min(1.0),
-        },
+        interval,
         positives: m as u64,
         negatives: n as u64,
     })
@@ -184,7 +266,8 @@ pub fn roc_auc_delong(scores: &[f64], labels: &[bool], confidence: f64) -> Resul
 /// p = 2·P(Z > |z|); interval difference ± z₁₋α/₂·√Var, clipped to [−1, 1].
 /// When the variance is 0 (e.g. identical rankings) the test has no spread: z = 0 and p = 1 if
 /// the difference is 0, else z = ±∞ and p = 0.
-/// Errors: as [`roc_auc_delong`], for either score slice.
+/// Errors: as [`roc_auc_delong`], for either score slice, and fewer than two positive or two
+/// negative rows (the paired variance is then undefined).
 pub fn roc_auc_delong_paired(
     scores_a: &[f64],
     scores_b: &[f64],
@@ -192,7 +275,8 @@ pub fn roc_auc_delong_paired(
     confidence: f64,
 ) -> Result<PairedAuc> {
     check_unit_open("confidence", confidence)?;
-    let (m, n) = check_inputs(&[scores_a, scores_b], labels)?;
+    // The variances of the component differences divide by m − 1 and n − 1.
+    let (m, n) = check_inputs(&[scores_a, scores_b], labels, 2)?;
     let z_crit = z_two_sided(confidence)?;
     let a = components(scores_a, labels, m, n);
     let b = components(scores_b, labels, m, n);

@@ -36,6 +36,12 @@ pub enum StatsError {
     },
     /// Too few values were given (e.g. a t interval from fewer than two values).
     TooFewValues { needed: usize, got: usize },
+    /// Too few rows of one class (e.g. DeLong's paired variance with one positive row).
+    TooFewInClass {
+        class: &'static str,
+        needed: usize,
+        got: usize,
+    },
     /// A slice had the wrong length (e.g. a trial with a different number of folds).
     LengthMismatch {
         name: &'static str,
@@ -73,6 +79,9 @@ impl fmt::Display for StatsError {
             ),
             Self::TooFewValues { needed, got } => {
                 write!(f, "need at least {needed} finite values, got {got}")
+            }
+            Self::TooFewInClass { class, needed, got } => {
+                write!(f, "need at least {needed} {class} rows, got {got}")
             }
             Self::LengthMismatch {
                 name,

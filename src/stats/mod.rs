@@ -43,7 +43,9 @@ pub use bootstrap::{
     DEFAULT_RESAMPLES, PairedBootstrap, RegressionStatistic, bootstrap_confusion,
     bootstrap_paired_confusion, bootstrap_rows,
 };
-pub use delong::{AucEstimate, PairedAuc, roc_auc_delong, roc_auc_delong_paired};
+pub use delong::{
+    AucEstimate, PairedAuc, auc_score_interval, roc_auc_delong, roc_auc_delong_paired,
+};
 pub use error::{Result, StatsError};
 pub use extremes::{blom_expected_max, expected_max_normal};
 pub use histogram::{Bin, Histogram};

@@ -18,8 +18,10 @@ from pathlib import Path
 import numpy as np
 import scipy
 import sklearn
-from scipy import optimize, stats
+from scipy import stats
 from sklearn.metrics import mean_absolute_error, mean_squared_error, r2_score, roc_auc_score
+
+from auc_score import score_auc_interval
 
 VERSIONS = f"scikit-learn {sklearn.__version__}, scipy {scipy.__version__}, numpy {np.__version__}"
 HERE = Path(__file__).resolve().parent
@@ -60,23 +62,6 @@ def sign_flip_p(a, b):
         vectorized=True,
     )
     return float(res.pvalue)
-
-
-def score_auc_interval(auc, m, n, z=Z):
-    """Score-type interval for the AUC: the theta with (auc - theta)^2 = z^2 V(theta), V the
-    Hanley & McNeil (1982) variance written as a function of theta, with m - 1 and n - 1
-    replaced by N* - 1, N* = (m + n)/2 (Newcombe 2006). Solved by scipy.optimize.brentq."""
-    ns = (m + n) / 2.0
-
-    def v(t):
-        return t * (1 - t) / (m * n) * (1 + (ns - 1) * ((1 - t) / (2 - t) + t / (1 + t)))
-
-    def g(t):
-        return (auc - t) ** 2 - z * z * v(t)
-
-    lo = 0.0 if auc <= 0 else optimize.brentq(g, 0.0, auc, xtol=1e-15, rtol=1e-15) if g(0.0) > 0 else 0.0
-    hi = 1.0 if auc >= 1 else optimize.brentq(g, auc, 1.0, xtol=1e-15, rtol=1e-15) if g(1.0) > 0 else 1.0
-    return lo, hi
 
 
 def delong(scores, labels):
@@ -223,6 +208,145 @@ about: "Every row's absolute error is 0.5 smaller than the baseline's, so the pa
 exit: 1
 findings:
 {"".join(expect)}""")
+
+
+def hull_interval(scores, labels):
+    """What vetscore reports for one model's AUC: DeLong's normal interval clipped to [0, 1],
+    widened at each end to the score-type interval; the score-type one alone with one row in a
+    class."""
+    auc, var = delong(scores, labels)
+    m, n = int(labels.sum()), int(len(labels) - labels.sum())
+    lo, hi = score_auc_interval(auc, m, n)
+    if m < 2 or n < 2:
+        return float(auc), lo, hi
+    half = Z * math.sqrt(var)
+    return float(auc), float(min(max(auc - half, 0.0), lo)), float(max(min(auc + half, 1.0), hi))
+
+
+# 3. Degenerate ROC AUC: perfect separation, all scores tied, one row per class, and a perfect
+#    model against an all-tied baseline on 2 + 2 rows.
+d = ROOT / "edge-auc-boundaries"
+d.mkdir(parents=True, exist_ok=True)
+cases = [
+    # name, scores, labels, claim, status of claim_support
+    ("tray-perfect-claim-1", [0.1, 0.2, 0.8, 0.9], [0, 0, 1, 1], 1.0),
+    ("tray-perfect-claim-09", [0.1, 0.2, 0.8, 0.9], [0, 0, 1, 1], 0.9),
+    ("tray-all-tied", [0.4] * 20, [0, 1] * 10, 0.6),
+    ("tray-one-each", [0.3, 0.7], [0, 1], 1.0),
+]
+models = []
+expect = []
+for k, (name, sc, lab, claim) in enumerate(cases):
+    sc, lab = np.array(sc), np.array(lab)
+    ids = [f"{name}-{i:02d}" for i in range(len(sc))]
+    write_csv(d / f"{name}.csv", ["id", "label", "score"], [(ids[i], lab[i], sc[i]) for i in range(len(sc))])
+    auc, lo, hi = hull_interval(sc, lab)
+    assert abs(auc - roc_auc_score(lab, sc)) < 1e-15
+    models.append(f"""  - name: {name}
+    task: binary
+    metric: roc_auc
+    seed: {70 + k}
+    data: {{train_rows: 100, test_rows: {len(sc)}, test_fingerprint: "{fingerprint(ids)}"}}
+    holdout:
+      - {{time: 2026-11-24T10:00:00Z, score: {float(auc)!r}}}
+    predictions:
+      file: {name}.csv
+    claim: {{value: {claim}, basis: test}}
+""")
+    expect.append(f"""  - model: {name}
+    rule: claim_support
+    status: pass
+    numbers:
+      - key: interval
+        lower: {lo!r}
+        upper: {hi!r}
+        tolerance: 1.0e-9
+        source: "{source(f'roc_auc_score = {auc}; DeLong (1988) variance computed directly; the wider at each end of auc -+ norm.isf(0.025)*sqrt(var) clipped to [0, 1] and the score-type interval (Hanley & McNeil 1982 variance at theta, N* = (m+n)/2, Newcombe 2006) solved by scipy.optimize.brentq')}"
+  - {{model: {name}, rule: recompute, status: pass}}
+""")
+# A perfect model against a baseline whose scores are all tied, on 2 + 2 rows.
+ids = [f"tray-pair-{i:02d}" for i in range(4)]
+lab = np.array([0, 0, 1, 1])
+write_csv(d / "tray-pair.csv", ["id", "label", "score"], [(ids[i], lab[i], [0.1, 0.2, 0.8, 0.9][i]) for i in range(4)])
+write_csv(d / "tray-pair-baseline.csv", ["id", "label", "score"], [(ids[i], lab[i], 0.5) for i in range(4)])
+models.append(f"""  - name: tray-pair
+    task: binary
+    metric: roc_auc
+    seed: 79
+    data: {{train_rows: 100, test_rows: 4, test_fingerprint: "{fingerprint(ids)}"}}
+    holdout:
+      - {{time: 2026-11-24T11:00:00Z, score: 1.0}}
+    predictions:
+      file: tray-pair.csv
+    baseline:
+      name: tray-coin
+      predictions_file: tray-pair-baseline.csv
+    claim: {{value: 1.0, basis: test, beats_baseline: true}}
+""")
+expect.append(f"""  - model: tray-pair
+    rule: baseline_improvement
+    status: fail
+    numbers:
+      - key: improvement
+        value: {float(roc_auc_score(lab, [0.1, 0.2, 0.8, 0.9]) - roc_auc_score(lab, [0.5] * 4))!r}
+        tolerance: 1.0e-12
+        source: "{source('roc_auc_score(model) - roc_auc_score(baseline)')}"
+      - key: p_value
+        value: {2 / 2 ** 4!r}
+        tolerance: 1.0e-12
+        source: "2 / 2^4: the two models' scores differ on all 4 rows, and two of the 2^4 swaps are as extreme as the data (arithmetic)"
+""")
+(d / "manifest.yaml").write_text("# Generated by tests/reference/edge_scenarios.py: invented seedling-tray models.\nformat_version: 1\nmodels:\n" + "".join(models))
+(d / "policy.yaml").write_text("format_version: 1\nrules:\n  claim_support: {min_rows: 1}\n" + NO_CV)
+(d / "expect.yaml").write_text(f"""# Generated by tests/reference/edge_scenarios.py.
+about: "ROC AUC where DeLong's variance is 0 or undefined. Before, perfect separation on 2 + 2 rows gave the interval [1, 1] (a claim of 0.9 failed as understated, one of 1.0 passed on no width), 20 tied scores gave [0.5, 0.5] (a claim of 0.6 failed), one row per class could not be recomputed (need at least 2 values), and a perfect model beat an all-tied baseline with p = 0. Now each interval keeps the width of the score-type interval, and the paired test's p is at least 2/2^4."
+exit: 1
+findings:
+{"".join(expect)}""")
+
+# 4. Intervals inside the metric's range: the t interval of a mean absolute error whose spread
+#    comes from one large error reaches below 0.
+d = ROOT / "edge-loss-range"
+d.mkdir(parents=True, exist_ok=True)
+n = 10
+ids = [f"scale-{i:02d}" for i in range(n)]
+target = np.round(rng.normal(30, 4, n), 2)
+pred = target.copy()
+pred[3] = round(target[3] + 10.0, 2)
+write_csv(d / "scale.csv", ["id", "target", "prediction"], [(ids[i], target[i], pred[i]) for i in range(n)])
+abs_err = np.abs(target - pred)
+mae = mean_absolute_error(target, pred)
+ci = stats.ttest_1samp(abs_err, 0.0).confidence_interval(0.95)
+assert ci.low < 0
+(d / "manifest.yaml").write_text(f"""# Generated by tests/reference/edge_scenarios.py: an invented seed-bench scale.
+format_version: 1
+models:
+  - name: scale-weight
+    task: regression
+    metric: mae
+    seed: 80
+    data: {{train_rows: 100, test_rows: {n}, test_fingerprint: "{fingerprint(ids)}"}}
+    holdout:
+      - {{time: 2026-11-25T10:00:00Z, score: {float(mae)!r}}}
+    predictions:
+      file: scale.csv
+    claim: {{value: 0.0, basis: test}}
+""")
+(d / "policy.yaml").write_text("format_version: 1\nrules:\n  claim_support: {min_rows: 1}\n" + NO_CV)
+(d / "expect.yaml").write_text(f"""# Generated by tests/reference/edge_scenarios.py.
+about: "Nine exact predictions and one 10 off: the t interval of the mean absolute error is [{ci.low:.4f}, {ci.high:.4f}]; before, the report showed a negative error as plausible. The interval is now clipped to the MAE's range [0, inf); a claim of 0.0 lies on its lower end."
+exit: 0
+findings:
+  - model: scale-weight
+    rule: claim_support
+    status: pass
+    numbers:
+      - key: interval
+        lower: 0.0
+        upper: {float(ci.high)!r}
+        tolerance: 1.0e-9
+        source: "{source('scipy.stats.ttest_1samp(|target - prediction|, 0).confidence_interval(0.95), lower end clipped to 0, the MAE lower bound')}"
+""")
 
 (HERE / "edge_values.json").write_text(json.dumps(values, indent=1) + "\n")
 print("wrote", ", ".join(p.name for p in sorted(ROOT.glob("edge-*"))), "and edge_values.json")

@@ -19,6 +19,8 @@ from scipy import stats
 from sklearn.metrics import accuracy_score, f1_score, mean_squared_error, roc_auc_score
 from statsmodels.stats.contingency_tables import mcnemar
 
+from auc_score import score_auc_interval
+
 VERSIONS = f"scikit-learn {sklearn.__version__}, statsmodels {statsmodels.__version__}, scipy {scipy.__version__}, numpy {np.__version__}"
 ROOT = Path(__file__).resolve().parents[2] / "fixtures" / "scenarios"
 rng = np.random.default_rng(20261201)
@@ -263,6 +265,7 @@ write_csv(d / "auc-predictions.csv", ["id", "label", "score"], [(ids[i], y[i], s
 auc = roc_auc_score(y, score)
 auc_direct, var = delong_auc_variance(score, y)
 z = stats.norm.isf(0.025)
+score_lo, score_hi = score_auc_interval(auc, int(y.sum()), int(n - y.sum()))
 target = np.round(rng.normal(50, 10, n), 2)
 pred = np.round(target + rng.normal(0, 4, n), 2)
 pred_base = np.round(target + rng.normal(0, 5, n), 2)
@@ -316,10 +319,10 @@ findings:
     status: pass
     numbers:
       - key: interval
-        lower: {float(auc - z * math.sqrt(var))!r}
-        upper: {float(auc + z * math.sqrt(var))!r}
+        lower: {min(float(auc - z * math.sqrt(var)), score_lo)!r}
+        upper: {max(float(auc + z * math.sqrt(var)), score_hi)!r}
         tolerance: 1.0e-9
-        source: "{source('DeLong (1988) structural components computed directly; auc +- norm.isf(0.025) * sqrt(var)')}"
+        source: "{source('DeLong (1988) structural components computed directly; auc +- norm.isf(0.025) * sqrt(var), widened at each end to the score-type interval of tests/reference/auc_score.py (scipy.optimize.brentq)')}"
   - model: tray-weight
     rule: recompute
     status: pass
