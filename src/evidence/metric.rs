@@ -295,6 +295,9 @@ pub struct Comparison {
     /// differences, else 2/2^m for the m rows on which the two models differ.
     pub p_floor: f64,
     pub test: &'static str,
+    /// Whether the test found no spread in the differences (every difference the same, up to
+    /// float rounding: [`stats::no_spread`] of its interval), so it measured no uncertainty.
+    pub no_spread: bool,
     /// McNemar's discordant counts: rows only the model gets right, rows only the baseline does.
     pub discordant: Option<(u64, u64)>,
 }
@@ -323,6 +326,7 @@ pub fn compare(
         test_p_value: 1.0,
         p_floor: 1.0,
         test: "",
+        no_spread: false,
         discordant: None,
     };
     if pairs.is_empty() {
@@ -511,10 +515,40 @@ pub fn compare(
                 |j| loss(tb[j], yb[j]),
                 confidence,
             )?;
-            comparison.fill_t(result)?;
+            if metric == Metric::Mae {
+                comparison.fill_t(result)?;
+            } else {
+                // RMSE and R²: the paired t on squared errors decides (equal MSE is equal RMSE
+                // and equal R² on the same targets); the improvement and its interval are
+                // restated in the metric's own units.
+                let mut d = stats::RegressionDifference::new();
+                for &(i, j) in &pairs {
+                    d.push(ta[i as usize], ya[i as usize], yb[j as usize]);
+                }
+                let squared = result.t;
+                comparison.fill_t(result)?;
+                if metric == Metric::Rmse {
+                    let e = d.rmse(confidence).map_err(err)?;
+                    comparison.improvement = e.difference;
+                    comparison.interval = e.interval;
+                    comparison.test =
+                        "paired t on per-row squared errors; RMSE difference by the delta method";
+                } else {
+                    let scale = d.r2_per_squared_error().map_err(err)?;
+                    comparison.improvement = squared.mean * scale;
+                    comparison.interval = Interval {
+                        lower: squared.interval.lower * scale,
+                        upper: squared.interval.upper * scale,
+                    };
+                    comparison.test = "paired t on per-row squared errors, in R² units";
+                }
+            }
         }
         _ => return Err("the model and the baseline predictions are of different kinds".into()),
     }
+    // A t-test judged its spread on the raw differences (fill_t); every test is also judged on
+    // the interval it reports.
+    comparison.no_spread |= stats::no_spread(comparison.interval);
     Ok(comparison)
 }
 
@@ -571,6 +605,7 @@ impl Comparison {
     fn fill_t(&mut self, losses: PairedLosses) -> Result<(), String> {
         self.improvement = losses.t.mean;
         self.interval = losses.t.interval;
+        self.no_spread = stats::no_spread(losses.t.interval);
         self.test = "paired t on per-row losses";
         self.set_p(
             losses.t.p_value,

@@ -24,8 +24,13 @@ with continuity correction otherwise) with the Agresti & Min (2005) interval for
 of paired proportions; for ROC AUC DeLong's paired test (DeLong, DeLong & Clarke-Pearson 1988), which needs two rows \
 of each class (with one, the comparison is inconclusive and says so); \
 for F1 and balanced accuracy a seeded paired bootstrap that resamples the joint table of (true \
-class, model's prediction, baseline's prediction) counts; for log loss, RMSE (squared error), \
-MAE and R² a paired t-test on per-row loss differences. When \
+class, model's prediction, baseline's prediction) counts; for log loss and MAE a paired t-test on per-row loss differences; \
+for RMSE and R² the paired t-test on per-row squared-error differences decides significance \
+(equal MSE on the same rows is equal RMSE and equal R²), while the improvement, its interval \
+and `min_improvement` are in the metric's own units: RMSE(baseline) − RMSE(model) with a \
+first-order delta-method interval (Oehlert 1992) from the two models' squared errors and their \
+covariance, and R²(model) − R²(baseline), which on shared targets is exactly the mean \
+squared-error difference times n/Σ(y − ȳ)², so the t interval scales with it. When \
 the baseline has no test predictions but was scored on the model's cross-validation folds \
 (`baseline.cv_fold_scores`), the Nadeau & Bengio (2003) corrected resampled t-test on the fold \
 differences, whose variance allows for the overlap between training sets. Few or identical \
@@ -148,7 +153,7 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
     let meaningful = c.interval.lower > min;
     judge(
         significant && meaningful && c.improvement > 0.0,
-        c.interval,
+        c.no_spread,
         [
             "On {paired_rows} paired rows the model improves on {baseline} by {improvement} \
              (interval {interval}, p = {p_value}, {test}).",
@@ -164,18 +169,13 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
     )
 }
 
-/// Pass or fail on `ok`; but an outcome that would pass on an interval with no spread (every
+/// Pass or fail on `ok`; but an outcome that would pass when the test found no spread (every
 /// difference the same, up to float rounding) is inconclusive: the test estimated no
 /// uncertainty, which identical differences cannot justify. `sentences` are pass, fail and
 /// no-spread.
-fn judge(
-    ok: bool,
-    interval: stats::Interval,
-    sentences: [&str; 3],
-    evidence: Vec<Evidence>,
-) -> Outcome {
+fn judge(ok: bool, no_spread: bool, sentences: [&str; 3], evidence: Vec<Evidence>) -> Outcome {
     let [pass, fail, spread_free] = sentences;
-    if ok && stats::no_spread(interval) {
+    if ok && no_spread {
         return Outcome::new(Status::Inconclusive, spread_free, evidence);
     }
     Outcome::judge(ok, pass, fail, evidence)
@@ -272,7 +272,7 @@ fn folds_only(subject: &Subject, ctx: &Context, baseline: &Baseline, min: f64) -
     let significant = p_value < 1.0 - ctx.intervals.confidence;
     judge(
         significant && t.interval.lower > min && t.mean > 0.0,
-        t.interval,
+        stats::no_spread(t.interval),
         [
             "On the same {folds} CV folds the model improves on {baseline} by {improvement} per \
              fold (interval {interval}, p = {p_value}, {test}); there are no test predictions \

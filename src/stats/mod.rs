@@ -10,7 +10,8 @@
 //! conventions (`metrics`, on Welford moments in `moments`), ROC AUC with DeLong's variance
 //! (`delong`), paired tests — McNemar, paired accuracy difference, paired and corrected resampled
 //! t (`paired`), the exact sign-flip test and the floor it puts under any paired p-value
-//! (`sign_flip`) — and seeded bootstraps (`bootstrap`, on the portable generator in `rng`).
+//! (`sign_flip`), RMSE and R² differences in their own units (`loss_difference`) — and seeded
+//! bootstraps (`bootstrap`, on the portable generator in `rng`).
 //!
 //! Every public function validates its arguments and returns [`Result`]; the `statrs` calls that
 //! panic on NaN or loop forever on huge shapes are only reached with checked arguments, and the
@@ -25,6 +26,7 @@ mod delong;
 mod error;
 mod extremes;
 mod histogram;
+mod loss_difference;
 mod mean;
 mod metrics;
 mod moments;
@@ -49,6 +51,7 @@ pub use delong::{
 pub use error::{Result, StatsError};
 pub use extremes::{blom_expected_max, expected_max_normal};
 pub use histogram::{Bin, Histogram};
+pub use loss_difference::{DifferenceEstimate, RegressionDifference};
 pub use mean::{MeanEstimate, mean_t_interval};
 pub use metrics::{ConfusionMatrix, F1Average, LogLoss, MAX_CLASSES, RegressionErrors};
 pub use normal_t::{normal_sf, t_quantile, t_sf, z_two_sided};
