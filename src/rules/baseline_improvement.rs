@@ -119,7 +119,7 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
         ),
         Evidence::number(
             "p_floor",
-            "Smallest p-value these rows allow (sign-flip test)",
+            "Sign-flip bound on the p-value",
             c.p_floor,
             Quantity::Probability,
         ),
@@ -160,10 +160,10 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
             "On {paired_rows} paired rows the improvement over {baseline} is {improvement} \
              (interval {interval}, p = {p_value}, {test}): not enough to claim the model is \
              better (the interval must lie above {min_improvement}).",
-            "On {paired_rows} paired rows the model and {baseline} differ by the same \
-             {improvement} everywhere, so the interval {interval} has no width and the test \
-             ({test}) has no spread to measure uncertainty by; p = {p_value} is the most these \
-             rows allow. A gain without any variation does not show the model is better.",
+            "On {paired_rows} paired rows the differences between the model and {baseline} do \
+             not vary, so the test ({test}) has no spread to measure uncertainty by \
+             (improvement {improvement}, interval {interval}); p = {p_value} is only the \
+             sign-flip bound. A gain without any variation does not show the model is better.",
         ],
         evidence,
     )
@@ -258,7 +258,7 @@ fn folds_only(subject: &Subject, ctx: &Context, baseline: &Baseline, min: f64) -
         ),
         Evidence::number(
             "p_floor",
-            "Smallest p-value these folds allow (sign-flip test)",
+            "Sign-flip bound on the p-value",
             p_floor,
             Quantity::Probability,
         ),
@@ -282,7 +282,7 @@ fn folds_only(subject: &Subject, ctx: &Context, baseline: &Baseline, min: f64) -
              better (the interval must lie above {min_improvement}).",
             "On the same {folds} CV folds the model beats {baseline} by the same {improvement} \
              on every fold, so the interval {interval} has no width and the test ({test}) has \
-             no spread to measure uncertainty by; p = {p_value} is the most these folds allow. \
+             no spread to measure uncertainty by; p = {p_value} is only the sign-flip bound. \
              A gain without any variation does not show the model is better.",
         ],
         evidence,
