@@ -178,9 +178,24 @@ pub struct RawSearch {
     /// A CSV or JSON Lines file of trials, relative to this manifest.
     #[serde(default)]
     pub trials_file: Option<String>,
+    /// The id of the trial that was chosen (its fold scores must equal `cv.folds`); the
+    /// selection-optimism bias is computed for it. Unnamed, it is the trial whose fold scores
+    /// equal `cv.folds` (or, in a scikit-learn results file, the first ranked 1).
+    #[serde(default)]
+    #[schemars(with = "Option<TrialId>")]
+    pub selected_trial: Option<Spanned<serde_json::Value>>,
     /// The cross-validation of the selected configuration.
     #[schemars(with = "RawCv")]
     pub cv: Spanned<RawCv>,
+}
+
+/// A trial id, written as a string or a whole number.
+#[derive(JsonSchema)]
+#[serde(untagged)]
+#[allow(dead_code)]
+enum TrialId {
+    Text(String),
+    Number(i64),
 }
 
 /// Cross-validation of the selected configuration.

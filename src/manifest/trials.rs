@@ -7,6 +7,11 @@
 //! Tibshirani & Tibshirani accumulator and a histogram of mean scores, so memory grows with the
 //! number of folds, not the number of trials (only an 8-byte hash per trial id is kept, to catch
 //! duplicates).
+//!
+//! The bias is computed for the configuration the manifest reports, never for whichever trial
+//! has the best mean: the manifest may name it (`search.selected_trial`), and its fold scores
+//! must then equal the manifest's folds; unnamed, it is the first trial whose fold scores equal
+//! them (within [`SCORE_MATCH`]), and a search where none does is an input error.
 
 use std::collections::{BTreeMap, HashSet};
 use std::hash::{DefaultHasher, Hash, Hasher};
@@ -30,6 +35,49 @@ pub const MAX_TRIALS_BYTES: u64 = 1 << 30;
 /// Most problems reported from one trials source before giving up on it.
 const MAX_PROBLEMS: usize = 20;
 
+/// Two fold scores are the same score when they differ by at most half a unit of the fourth
+/// decimal: the manifest may round what the trials file holds in full (or the other way round).
+pub const SCORE_MATCH: f64 = 5e-5;
+
+/// The configuration the manifest reports, against which the trials are matched.
+#[derive(Debug, Clone)]
+pub struct Selected {
+    /// The manifest's fold scores of the selected configuration, in fold order.
+    pub folds: Vec<f64>,
+    /// The trial id the manifest names (`search.selected_trial`), with where it is written.
+    pub named: Option<Named>,
+}
+
+/// A trial id named in the manifest, and where.
+#[derive(Debug, Clone)]
+pub struct Named {
+    pub id: String,
+    pub file: String,
+    pub place: Place,
+    pub path: String,
+}
+
+/// The trial found to be the selected one while streaming.
+#[derive(Debug, Clone)]
+struct Candidate {
+    index: usize,
+    id: String,
+    place: Place,
+    /// Key path of its fold scores in diagnostics.
+    key: String,
+    scores: Vec<f64>,
+}
+
+/// Whether two lists of fold scores are the same within [`SCORE_MATCH`].
+fn same_scores(a: &[f64], b: &[f64]) -> bool {
+    a.len() == b.len() && a.iter().zip(b).all(|(x, y)| (x - y).abs() <= SCORE_MATCH)
+}
+
+fn show_scores(scores: &[f64]) -> String {
+    let shown: Vec<String> = scores.iter().map(|s| format!("{s}")).collect();
+    format!("[{}]", shown.join(", "))
+}
+
 /// One trial as written inline or in JSON Lines.
 #[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
@@ -52,6 +100,11 @@ pub struct TrialSummary {
     pub bias: BiasEstimate,
     /// Mean fold score of each trial, grouped for display.
     pub histogram: Vec<Bin>,
+    /// Id of the trial the bias describes (the reported configuration), when the reader was
+    /// told which one it is.
+    pub selected_id: Option<String>,
+    /// How that trial was found, for the report.
+    pub selected_by: Option<&'static str>,
 }
 
 /// Streams trials into a summary, collecting problems.
@@ -63,6 +116,14 @@ pub struct TrialReader<'a> {
     histogram: Histogram,
     ids: HashSet<u64>,
     problems: Vec<Diagnostic>,
+    selected: Option<Selected>,
+    /// The trial the file itself marks as chosen (scikit-learn's first `rank_test_score == 1`).
+    ranked_first: Option<Candidate>,
+    candidate: Option<Candidate>,
+    /// Trials whose fold scores equal the selected configuration's.
+    matching: u64,
+    /// Trials accepted so far (the push index of the next one).
+    pushed: usize,
 }
 
 impl<'a> TrialReader<'a> {
@@ -76,7 +137,19 @@ impl<'a> TrialReader<'a> {
             histogram: Histogram::default(),
             ids: HashSet::new(),
             problems: Vec::new(),
+            selected: None,
+            ranked_first: None,
+            candidate: None,
+            matching: 0,
+            pushed: 0,
         }
+    }
+
+    /// Matches the trials against the configuration the manifest reports: the bias is then
+    /// computed for that trial, and a named trial whose folds differ is an input error.
+    pub fn select(mut self, selected: Selected) -> Self {
+        self.selected = Some(selected);
+        self
     }
 
     fn full(&self) -> bool {
@@ -141,12 +214,132 @@ impl<'a> TrialReader<'a> {
             -1.0
         };
         let signed: Vec<f64> = scores.iter().map(|s| sign * s).collect();
+        let index = self.pushed;
         if let Err(e) = self.bias.push(&signed) {
             self.problem(place, key("fold_scores"), e.to_string());
             return;
         }
+        self.pushed += 1;
+        self.consider(
+            Candidate {
+                index,
+                id: id.to_owned(),
+                place,
+                key: key("fold_scores"),
+                scores: Vec::new(),
+            },
+            scores,
+        );
         self.histogram
             .push(scores.iter().sum::<f64>() / scores.len() as f64);
+    }
+
+    /// Keeps the trial if it is the named one, or (unnamed) the first whose folds match.
+    fn consider(&mut self, mut candidate: Candidate, scores: &[f64]) {
+        let Some(selected) = &self.selected else {
+            return;
+        };
+        let matches = same_scores(scores, &selected.folds);
+        self.matching += u64::from(matches);
+        let keep = match &selected.named {
+            Some(named) => named.id == candidate.id,
+            None => matches && self.candidate.is_none(),
+        };
+        if keep {
+            candidate.scores = scores.to_vec();
+            self.candidate = Some(candidate);
+        }
+    }
+
+    /// The selected trial's bias, or why the trials do not contain the reported configuration.
+    fn selected_bias(
+        &mut self,
+    ) -> Result<Option<(BiasEstimate, String, &'static str)>, Vec<Diagnostic>> {
+        let Some(selected) = self.selected.take() else {
+            return Ok(None);
+        };
+        let (found, by) = match (&selected.named, self.ranked_first.take()) {
+            (Some(named), _) => {
+                let Some(found) = self.candidate.take() else {
+                    return Err(vec![
+                        Diagnostic::at(
+                            &named.file,
+                            named.place,
+                            named.path.clone(),
+                            format!(
+                                "selected_trial {:?} is not among the trials in {}",
+                                named.id, self.file
+                            ),
+                        )
+                        .with_help(
+                            "name the id of the chosen configuration exactly as the trials list it",
+                        ),
+                    ]);
+                };
+                (found, "named by the manifest")
+            }
+            (None, Some(ranked)) => (ranked, "ranked first by the search"),
+            (None, None) => {
+                let Some(found) = self.candidate.take() else {
+                    return Err(vec![
+                        Diagnostic::file(
+                            self.file,
+                            format!(
+                                "no trial has the selected configuration's fold scores {}",
+                                show_scores(&selected.folds)
+                            ),
+                        )
+                        .with_help(
+                            "list the chosen configuration among the trials, or name it with search.selected_trial",
+                        ),
+                    ]);
+                };
+                (
+                    found,
+                    if self.matching > 1 {
+                        "the first of several trials with the selected folds"
+                    } else {
+                        "the trial with the selected folds"
+                    },
+                )
+            }
+        };
+        if !same_scores(&found.scores, &selected.folds) {
+            let whose = if by == "ranked first by the search" {
+                "ranked first by the search"
+            } else {
+                "the manifest's selected_trial"
+            };
+            return Err(vec![
+                Diagnostic::at(
+                    self.file,
+                    found.place,
+                    found.key.clone(),
+                    format!(
+                        "trial {:?} ({whose}) has fold scores {}, but the manifest's selected configuration has {}",
+                        found.id,
+                        show_scores(&found.scores),
+                        show_scores(&selected.folds)
+                    ),
+                )
+                .with_help(
+                    "the folds under search.cv must be the chosen configuration's; name the chosen trial with search.selected_trial",
+                ),
+            ]);
+        }
+        let sign = if self.metric.higher_is_better() {
+            1.0
+        } else {
+            -1.0
+        };
+        let signed: Vec<f64> = found.scores.iter().map(|s| sign * s).collect();
+        let bias = self.bias.finish_for(found.index, &signed).map_err(|e| {
+            vec![Diagnostic::file(
+                self.file,
+                format!("no usable trials: {e}"),
+            )]
+        })?;
+        Ok(Some((bias, found.id, by)))
     }
 
     /// Reads a CSV trials file with an `id` column and `fold_1` … `fold_K` columns.
@@ -294,16 +487,20 @@ impl<'a> TrialReader<'a> {
     }
 
     /// The summary, or every problem found.
-    pub fn finish(self) -> Result<TrialSummary, Vec<Diagnostic>> {
+    pub fn finish(mut self) -> Result<TrialSummary, Vec<Diagnostic>> {
         if !self.problems.is_empty() {
             return Err(self.problems);
         }
-        let mut bias = self.bias.finish().map_err(|e| {
+        let argmax = self.bias.finish().map_err(|e| {
             vec![Diagnostic::file(
                 self.file,
                 format!("no usable trials: {e}"),
             )]
         })?;
+        let (mut bias, selected_id, selected_by) = match self.selected_bias()? {
+            Some((bias, id, by)) => (bias, Some(id), Some(by)),
+            None => (argmax, None, None),
+        };
         if !self.metric.higher_is_better() {
             bias.naive_best = -bias.naive_best;
             bias.corrected = -bias.corrected;
@@ -312,6 +509,8 @@ impl<'a> TrialReader<'a> {
             trials: bias.trials,
             bias,
             histogram: self.histogram.bins(HISTOGRAM_BINS),
+            selected_id,
+            selected_by,
         })
     }
 }
@@ -330,8 +529,9 @@ pub fn read_file(
     path: &Path,
     named_by: &str,
     metric: Metric,
-    folds: usize,
+    selected: Selected,
 ) -> Result<TrialSummary, Vec<Diagnostic>> {
+    let folds = selected.folds.len();
     let shown = path.display().to_string();
     let refuse = |reason: String| {
         vec![Diagnostic::file(
@@ -357,7 +557,7 @@ pub fn read_file(
             metadata.len()
         )));
     }
-    let mut reader = TrialReader::new(&shown, metric, folds);
+    let mut reader = TrialReader::new(&shown, metric, folds).select(selected);
     let file = LineLimit::new(file);
     match path.extension().and_then(|e| e.to_str()) {
         Some("jsonl" | "ndjson") => {

@@ -488,6 +488,22 @@ impl Validator<'_> {
             );
         }
         let cv = self.cv(&format!("{path}.cv"), metric, data, raw.cv)?;
+        let selected = trials::Selected {
+            folds: cv.folds.iter().map(|f| f.score).collect(),
+            named: raw.selected_trial.as_ref().map(|s| trials::Named {
+                id: trials::id_text(&s.value),
+                file: self.file.to_owned(),
+                place: Place::of(&s.referenced),
+                path: format!("{path}.selected_trial"),
+            }),
+        };
+        if let (Some(s), None, None) = (&raw.selected_trial, &raw.trials, &raw.trials_file) {
+            self.problem(
+                Place::of(&s.referenced),
+                &format!("{path}.selected_trial"),
+                "selected_trial names a trial, but the search lists no trials (`trials` or `trials_file`)",
+            );
+        }
         let trials = match (raw.trials, raw.trials_file) {
             (Some(_), Some(_)) => {
                 self.problem(
@@ -497,14 +513,14 @@ impl Validator<'_> {
                 );
                 None
             }
-            (Some(inline), None) => self.inline_trials(path, metric, cv.folds.len(), inline),
+            (Some(inline), None) => self.inline_trials(path, metric, selected, inline),
             (None, Some(file)) => {
                 let resolved = self.resolve(place, &format!("{path}.trials_file"), &file)?;
                 match trials::read_file(
                     &resolved,
                     &format!("{path}.trials_file in {}", self.file),
                     metric,
-                    cv.folds.len(),
+                    selected,
                 ) {
                     Ok(summary) => Some(summary),
                     Err(problems) => {
@@ -552,10 +568,10 @@ impl Validator<'_> {
         &mut self,
         path: &str,
         metric: Metric,
-        folds: usize,
+        selected: trials::Selected,
         inline: Vec<Spanned<RawTrial>>,
     ) -> Option<TrialSummary> {
-        let mut reader = TrialReader::new(self.file, metric, folds);
+        let mut reader = TrialReader::new(self.file, metric, selected.folds.len()).select(selected);
         for (i, t) in inline.into_iter().enumerate() {
             let place = Place::of(&t.referenced);
             reader.push(

@@ -157,6 +157,15 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
     let tt = search.trials.as_ref().map(|t| t.bias);
     if let Some(b) = tt {
         evidence.push(Evidence::count("trials", "Trials listed", b.trials));
+        if let Some(t) = &search.trials
+            && let (Some(id), Some(by)) = (&t.selected_id, t.selected_by)
+        {
+            evidence.push(Evidence::text(
+                "selected_trial",
+                "Trial the bias is computed for",
+                format!("{id} ({by})"),
+            ));
+        }
         evidence.push(Evidence::number(
             "tt_bias",
             "Tibshirani & Tibshirani bias",
