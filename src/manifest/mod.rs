@@ -108,6 +108,9 @@ pub enum CvScheme {
     RepeatedKFold,
     TimeOrdered,
     Nested,
+    /// One validation split held out of the training rows (train / validation / test): every
+    /// configuration, and every early-stopping checkpoint, is scored on the same rows.
+    ValidationSplit,
 }
 
 /// What evidence a claim rests on.

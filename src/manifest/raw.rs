@@ -208,7 +208,7 @@ pub struct RawCv {
     /// How many times the k-fold split was repeated (`repeated_k_fold` only; default 1).
     #[serde(default)]
     pub repeats: Option<u32>,
-    /// One entry per validation fold, in order.
+    /// One entry per validation fold, in order (exactly one for `validation_split`).
     #[schemars(with = "Vec<RawFold>")]
     pub folds: Vec<Spanned<RawFold>>,
 }

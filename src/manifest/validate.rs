@@ -625,7 +625,24 @@ impl Validator<'_> {
         } else {
             2
         };
-        if raw.folds.len() < min_folds {
+        if raw.scheme == CvScheme::ValidationSplit {
+            if raw.folds.len() != 1 {
+                self.out.push(
+                    Diagnostic::at(
+                        self.file,
+                        place,
+                        format!("{path}.folds"),
+                        format!(
+                            "a validation split is one entry (its rows and score), found {}",
+                            raw.folds.len()
+                        ),
+                    )
+                    .with_help(
+                        "several folds are a k-fold scheme; one held-out split is one entry",
+                    ),
+                );
+            }
+        } else if raw.folds.len() < min_folds {
             self.problem(
                 place,
                 &format!("{path}.folds"),
@@ -678,6 +695,20 @@ impl Validator<'_> {
                 )
                 .with_help("row counts are used in floating-point statistics, which count exactly only up to 2^53"),
             );
+        } else if scheme == CvScheme::ValidationSplit {
+            if total >= u128::from(train_rows) {
+                self.out.push(
+                    Diagnostic::at(
+                        self.file,
+                        place,
+                        path,
+                        format!(
+                            "the validation split holds {total} rows, which leaves none of the {train_rows} training rows to train on"
+                        ),
+                    )
+                    .with_help("train_rows counts the rows of training and validation together; the validation split is part of them"),
+                );
+            }
         } else if scheme == CvScheme::TimeOrdered {
             if total > u128::from(train_rows) {
                 self.problem(
