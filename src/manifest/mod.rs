@@ -5,6 +5,7 @@
 //! here evaluates a rule.
 
 pub mod raw;
+pub mod sklearn;
 pub mod trials;
 mod validate;
 

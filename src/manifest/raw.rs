@@ -184,6 +184,12 @@ pub struct RawSearch {
     #[serde(default)]
     #[schemars(with = "Option<TrialId>")]
     pub selected_trial: Option<Spanned<serde_json::Value>>,
+    /// For a trials file that is scikit-learn's `cv_results_`: the scorer its scores are, as
+    /// passed to `scoring` (e.g. `neg_log_loss`; losses are stored negated), and for a search
+    /// with several scorers the one to read. Default: the estimator's own score (accuracy or r2).
+    #[serde(default)]
+    #[schemars(with = "Option<String>")]
+    pub scorer: Option<Spanned<String>>,
     /// The cross-validation of the selected configuration.
     #[schemars(with = "RawCv")]
     pub cv: Spanned<RawCv>,

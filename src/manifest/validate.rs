@@ -504,6 +504,12 @@ impl Validator<'_> {
                 "selected_trial names a trial, but the search lists no trials (`trials` or `trials_file`)",
             );
         }
+        let scorer = raw.scorer.as_ref().map(|s| super::sklearn::ScorerName {
+            name: s.value.clone(),
+            file: self.file.to_owned(),
+            place: Place::of(&s.referenced),
+            path: format!("{path}.scorer"),
+        });
         let trials = match (raw.trials, raw.trials_file) {
             (Some(_), Some(_)) => {
                 self.problem(
@@ -513,7 +519,16 @@ impl Validator<'_> {
                 );
                 None
             }
-            (Some(inline), None) => self.inline_trials(path, metric, selected, inline),
+            (Some(inline), None) => {
+                if let Some(s) = &scorer {
+                    self.problem(
+                        s.place,
+                        &s.path,
+                        "scorer applies to a scikit-learn results file (trials_file), not to inline trials",
+                    );
+                }
+                self.inline_trials(path, metric, selected, inline)
+            }
             (None, Some(file)) => {
                 let resolved = self.resolve(place, &format!("{path}.trials_file"), &file)?;
                 match trials::read_file(
@@ -521,6 +536,7 @@ impl Validator<'_> {
                     &format!("{path}.trials_file in {}", self.file),
                     metric,
                     selected,
+                    scorer,
                 ) {
                     Ok(summary) => Some(summary),
                     Err(problems) => {
@@ -529,7 +545,16 @@ impl Validator<'_> {
                     }
                 }
             }
-            (None, None) => None,
+            (None, None) => {
+                if let Some(s) = &scorer {
+                    self.problem(
+                        s.place,
+                        &s.path,
+                        "scorer applies to a scikit-learn results file (trials_file), but the search lists no trials",
+                    );
+                }
+                None
+            }
         };
         let configurations = match (raw.configurations, &trials) {
             (Some(stated), Some(t)) if stated != t.trials => {
