@@ -250,3 +250,106 @@ impl TrialReader<'_> {
         }
     }
 }
+
+#[cfg(test)]
+#[allow(clippy::unwrap_used)]
+mod tests {
+    use super::*;
+    use crate::manifest::trials::{Selected, TrialReader};
+
+    /// The shape `pandas.DataFrame(search.cv_results_).to_csv()` writes (scikit-learn 1.9.1,
+    /// pandas 3.1.1: a leading unnamed index column, `params` as a quoted Python dict).
+    const HEADER: &str = ",mean_fit_time,param_C,params,split0_test_score,split1_test_score,mean_test_score,std_test_score,rank_test_score\n";
+
+    fn read(
+        csv: &str,
+        metric: Metric,
+        folds: &[f64],
+    ) -> Result<super::super::trials::TrialSummary, Vec<Diagnostic>> {
+        let mut reader = TrialReader::new("cv.csv", metric, folds.len()).select(Selected {
+            folds: folds.to_vec(),
+            named: None,
+        });
+        reader.read_csv(csv.as_bytes());
+        reader.finish()
+    }
+
+    #[test]
+    fn ties_at_rank_one_take_the_first_row_and_say_so() {
+        // Rows 0 and 1 both have mean 0.8 and rank 1 (scikit-learn ranks ties with the lowest
+        // rank); best_index_ is the first, row 0.
+        let csv = format!(
+            "{HEADER}0,0.01,1,\"{{'C': 1}}\",0.8,0.8,0.8,0.0,1\n1,0.01,10,\"{{'C': 10}}\",0.9,0.7,0.8,0.1,1\n2,0.01,100,\"{{'C': 100}}\",0.7,0.7,0.7,0.0,3\n"
+        );
+        let summary = read(&csv, Metric::Accuracy, &[0.8, 0.8]).unwrap();
+        assert_eq!(summary.selected_id.as_deref(), Some("0"));
+        assert!(summary.selected_by.unwrap().contains("tied at rank 1"));
+        // Per-fold maxima 0.9, 0.8; row 0 scores 0.8, 0.8: bias (0.1 + 0) / 2 = 0.05 (by hand).
+        assert!((summary.bias.bias - 0.05).abs() < 1e-12);
+        assert_eq!(summary.trials, 3);
+    }
+
+    fn neg_log_loss() -> ScorerName {
+        ScorerName {
+            name: "neg_log_loss".into(),
+            file: "m.yaml".into(),
+            place: Place::new(3, 5),
+            path: "models[0].search.scorer".into(),
+        }
+    }
+
+    #[test]
+    fn negated_losses_are_turned_back_and_means_are_checked() {
+        let header =
+            ",params,split0_test_score,split1_test_score,mean_test_score,rank_test_score\n";
+        let csv = format!("{header}0,\"{{}}\",-0.5,-0.3,-0.4,1\n1,\"{{}}\",-0.6,-0.6,-0.6,2\n");
+        let mut reader = TrialReader::new("cv.csv", Metric::LogLoss, 2)
+            .select(Selected {
+                folds: vec![0.5, 0.3],
+                named: None,
+            })
+            .scorer(Some(neg_log_loss()));
+        reader.read_csv(csv.as_bytes());
+        let summary = reader.finish().unwrap();
+        // Lower is better: row 0 (0.5, 0.3) is best on both folds, so the bias is 0.
+        assert_eq!(summary.bias.bias, 0.0);
+        assert!((summary.bias.naive_best - 0.4).abs() < 1e-12);
+
+        let wrong_mean = format!("{header}0,\"{{}}\",-0.5,-0.3,-0.45,1\n");
+        let mut reader =
+            TrialReader::new("cv.csv", Metric::LogLoss, 2).scorer(Some(neg_log_loss()));
+        reader.read_csv(wrong_mean.as_bytes());
+        let problems = reader.finish().unwrap_err();
+        assert!(
+            problems[0].message.contains("mean_test_score is -0.45"),
+            "{problems:?}"
+        );
+        assert_eq!(problems[0].line, Some(2));
+    }
+
+    #[test]
+    fn a_failed_fit_and_a_missing_split_are_input_errors() {
+        let csv = format!("{HEADER}0,0.01,1,\"{{}}\",,0.8,,0.0,1\n");
+        let problems = read(&csv, Metric::Accuracy, &[0.8, 0.8]).unwrap_err();
+        assert!(problems[0].message.contains("a failed fit"), "{problems:?}");
+        let problems = read(&csv, Metric::Accuracy, &[0.8, 0.8, 0.8]).unwrap_err();
+        assert!(
+            problems[0]
+                .message
+                .contains("missing column split2_test_score"),
+            "{problems:?}"
+        );
+        let problems = read(&csv, Metric::Accuracy, &[0.8]).unwrap_err();
+        assert!(
+            problems[0].message.contains("more than 1 splits"),
+            "{problems:?}"
+        );
+    }
+
+    #[test]
+    fn without_an_index_the_row_position_is_the_id() {
+        let csv = "params,split0_test_score,split1_test_score,mean_test_score,rank_test_score\n\"{}\",0.6,0.6,0.6,2\n\"{}\",0.8,0.8,0.8,1\n";
+        let summary = read(csv, Metric::Accuracy, &[0.8, 0.8]).unwrap();
+        assert_eq!(summary.selected_id.as_deref(), Some("1"));
+    }
+}
