@@ -5,6 +5,7 @@
 //! here evaluates a rule.
 
 pub mod raw;
+pub mod sklearn;
 pub mod trials;
 mod validate;
 
@@ -108,6 +109,9 @@ pub enum CvScheme {
     RepeatedKFold,
     TimeOrdered,
     Nested,
+    /// One validation split held out of the training rows (train / validation / test): every
+    /// configuration, and every early-stopping checkpoint, is scored on the same rows.
+    ValidationSplit,
 }
 
 /// What evidence a claim rests on.

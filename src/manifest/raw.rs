@@ -178,9 +178,30 @@ pub struct RawSearch {
     /// A CSV or JSON Lines file of trials, relative to this manifest.
     #[serde(default)]
     pub trials_file: Option<String>,
+    /// The id of the trial that was chosen (its fold scores must equal `cv.folds`); the
+    /// selection-optimism bias is computed for it. Unnamed, it is the trial whose fold scores
+    /// equal `cv.folds` (or, in a scikit-learn results file, the first ranked 1).
+    #[serde(default)]
+    #[schemars(with = "Option<TrialId>")]
+    pub selected_trial: Option<Spanned<serde_json::Value>>,
+    /// For a trials file that is scikit-learn's `cv_results_`: the scorer its scores are, as
+    /// passed to `scoring` (e.g. `neg_log_loss`; losses are stored negated), and for a search
+    /// with several scorers the one to read. Default: the estimator's own score (accuracy or r2).
+    #[serde(default)]
+    #[schemars(with = "Option<String>")]
+    pub scorer: Option<Spanned<String>>,
     /// The cross-validation of the selected configuration.
     #[schemars(with = "RawCv")]
     pub cv: Spanned<RawCv>,
+}
+
+/// A trial id, written as a string or a whole number.
+#[derive(JsonSchema)]
+#[serde(untagged)]
+#[allow(dead_code)]
+enum TrialId {
+    Text(String),
+    Number(i64),
 }
 
 /// Cross-validation of the selected configuration.
@@ -193,7 +214,7 @@ pub struct RawCv {
     /// How many times the k-fold split was repeated (`repeated_k_fold` only; default 1).
     #[serde(default)]
     pub repeats: Option<u32>,
-    /// One entry per validation fold, in order.
+    /// One entry per validation fold, in order (exactly one for `validation_split`).
     #[schemars(with = "Vec<RawFold>")]
     pub folds: Vec<Spanned<RawFold>>,
 }

@@ -6,7 +6,13 @@
 //! one object per line, `{"id": …, "params": {…}, "fold_scores": [ … ]}`. Each trial feeds the
 //! Tibshirani & Tibshirani accumulator and a histogram of mean scores, so memory grows with the
 //! number of folds, not the number of trials (only an 8-byte hash per trial id is kept, to catch
-//! duplicates).
+//! duplicates). scikit-learn's `cv_results_` as pandas writes it is read too ([`super::sklearn`]);
+//! its JSON form is parsed whole, so it has a smaller size limit.
+//!
+//! The bias is computed for the configuration the manifest reports, never for whichever trial
+//! has the best mean: the manifest may name it (`search.selected_trial`), and its fold scores
+//! must then equal the manifest's folds; unnamed, it is the first trial whose fold scores equal
+//! them (within [`SCORE_MATCH`]), and a search where none does is an input error.
 
 use std::collections::{BTreeMap, HashSet};
 use std::hash::{DefaultHasher, Hash, Hasher};
@@ -27,8 +33,55 @@ pub const HISTOGRAM_BINS: usize = 16;
 /// streamed, so memory stays small, but reading is bounded in time as well.
 pub const MAX_TRIALS_BYTES: u64 = 1 << 30;
 
+/// Largest scikit-learn results file in pandas' JSON form, in bytes. That form cannot be read
+/// row by row, so the whole document is held in memory (several times its size as parsed values).
+pub const MAX_CV_RESULTS_JSON_BYTES: u64 = 256 << 20;
+
 /// Most problems reported from one trials source before giving up on it.
 const MAX_PROBLEMS: usize = 20;
+
+/// Two fold scores are the same score when they differ by at most half a unit of the fourth
+/// decimal: the manifest may round what the trials file holds in full (or the other way round).
+pub const SCORE_MATCH: f64 = 5e-5;
+
+/// The configuration the manifest reports, against which the trials are matched.
+#[derive(Debug, Clone)]
+pub struct Selected {
+    /// The manifest's fold scores of the selected configuration, in fold order.
+    pub folds: Vec<f64>,
+    /// The trial id the manifest names (`search.selected_trial`), with where it is written.
+    pub named: Option<Named>,
+}
+
+/// A trial id named in the manifest, and where.
+#[derive(Debug, Clone)]
+pub struct Named {
+    pub id: String,
+    pub file: String,
+    pub place: Place,
+    pub path: String,
+}
+
+/// The trial found to be the selected one while streaming.
+#[derive(Debug, Clone)]
+struct Candidate {
+    index: usize,
+    id: String,
+    place: Place,
+    /// Key path of its fold scores in diagnostics.
+    key: String,
+    scores: Vec<f64>,
+}
+
+/// Whether two lists of fold scores are the same within [`SCORE_MATCH`].
+fn same_scores(a: &[f64], b: &[f64]) -> bool {
+    a.len() == b.len() && a.iter().zip(b).all(|(x, y)| (x - y).abs() <= SCORE_MATCH)
+}
+
+fn show_scores(scores: &[f64]) -> String {
+    let shown: Vec<String> = scores.iter().map(|s| format!("{s}")).collect();
+    format!("[{}]", shown.join(", "))
+}
 
 /// One trial as written inline or in JSON Lines.
 #[derive(Debug, Deserialize, JsonSchema)]
@@ -52,6 +105,11 @@ pub struct TrialSummary {
     pub bias: BiasEstimate,
     /// Mean fold score of each trial, grouped for display.
     pub histogram: Vec<Bin>,
+    /// Id of the trial the bias describes (the reported configuration), when the reader was
+    /// told which one it is.
+    pub selected_id: Option<String>,
+    /// How that trial was found, for the report.
+    pub selected_by: Option<&'static str>,
 }
 
 /// Streams trials into a summary, collecting problems.
@@ -63,6 +121,19 @@ pub struct TrialReader<'a> {
     histogram: Histogram,
     ids: HashSet<u64>,
     problems: Vec<Diagnostic>,
+    selected: Option<Selected>,
+    /// The trial the file itself marks as chosen (scikit-learn's first `rank_test_score == 1`).
+    ranked_first: Option<Candidate>,
+    candidate: Option<Candidate>,
+    /// Trials whose fold scores equal the selected configuration's.
+    matching: u64,
+    /// Trials accepted so far (the push index of the next one).
+    pushed: usize,
+    /// Rows the file ranks first (several on ties).
+    ranked_ones: u64,
+    scorer: Option<super::sklearn::ScorerName>,
+    /// Whether the trials came from scikit-learn's results (where `scorer` applies).
+    cv_results: bool,
 }
 
 impl<'a> TrialReader<'a> {
@@ -76,7 +147,22 @@ impl<'a> TrialReader<'a> {
             histogram: Histogram::default(),
             ids: HashSet::new(),
             problems: Vec::new(),
+            selected: None,
+            ranked_first: None,
+            candidate: None,
+            matching: 0,
+            pushed: 0,
+            ranked_ones: 0,
+            scorer: None,
+            cv_results: false,
         }
+    }
+
+    /// Matches the trials against the configuration the manifest reports: the bias is then
+    /// computed for that trial, and a named trial whose folds differ is an input error.
+    pub fn select(mut self, selected: Selected) -> Self {
+        self.selected = Some(selected);
+        self
     }
 
     fn full(&self) -> bool {
@@ -141,12 +227,168 @@ impl<'a> TrialReader<'a> {
             -1.0
         };
         let signed: Vec<f64> = scores.iter().map(|s| sign * s).collect();
+        let index = self.pushed;
         if let Err(e) = self.bias.push(&signed) {
             self.problem(place, key("fold_scores"), e.to_string());
             return;
         }
+        self.pushed += 1;
+        self.consider(
+            Candidate {
+                index,
+                id: id.to_owned(),
+                place,
+                key: key("fold_scores"),
+                scores: Vec::new(),
+            },
+            scores,
+        );
         self.histogram
             .push(scores.iter().sum::<f64>() / scores.len() as f64);
+    }
+
+    /// Keeps the trial if it is the named one, or (unnamed) the first whose folds match.
+    fn consider(&mut self, mut candidate: Candidate, scores: &[f64]) {
+        let Some(selected) = &self.selected else {
+            return;
+        };
+        let matches = same_scores(scores, &selected.folds);
+        self.matching += u64::from(matches);
+        let keep = match &selected.named {
+            Some(named) => named.id == candidate.id,
+            None => matches && self.candidate.is_none(),
+        };
+        if keep {
+            candidate.scores = scores.to_vec();
+            self.candidate = Some(candidate);
+        }
+    }
+
+    /// Marks the trial just pushed as the one the file itself ranks first (the first is kept).
+    pub(super) fn mark_ranked_first(&mut self, id: &str, place: Place, scores: &[f64]) {
+        self.ranked_ones += 1;
+        if self.ranked_first.is_none() {
+            self.ranked_first = Some(Candidate {
+                index: self.pushed.saturating_sub(1),
+                id: id.to_owned(),
+                place,
+                key: "fold_scores".to_owned(),
+                scores: scores.to_vec(),
+            });
+        }
+    }
+
+    /// Trials accepted so far.
+    pub(super) fn accepted(&self) -> usize {
+        self.pushed
+    }
+
+    pub(super) fn cv_problem(&mut self, place: Place, column: &str, message: String) {
+        self.problem(place, column.to_owned(), message);
+    }
+
+    /// Reads scikit-learn's results through the scorer the manifest names (if any).
+    pub fn scorer(mut self, scorer: Option<super::sklearn::ScorerName>) -> Self {
+        self.scorer = scorer;
+        self
+    }
+
+    /// The selected trial's bias, or why the trials do not contain the reported configuration.
+    fn selected_bias(
+        &mut self,
+    ) -> Result<Option<(BiasEstimate, String, &'static str)>, Vec<Diagnostic>> {
+        let Some(selected) = self.selected.take() else {
+            return Ok(None);
+        };
+        let (found, by) = match (&selected.named, self.ranked_first.take()) {
+            (Some(named), _) => {
+                let Some(found) = self.candidate.take() else {
+                    return Err(vec![
+                        Diagnostic::at(
+                            &named.file,
+                            named.place,
+                            named.path.clone(),
+                            format!(
+                                "selected_trial {:?} is not among the trials in {}",
+                                named.id, self.file
+                            ),
+                        )
+                        .with_help(
+                            "name the id of the chosen configuration exactly as the trials list it",
+                        ),
+                    ]);
+                };
+                (found, "named by the manifest")
+            }
+            (None, Some(ranked)) => (
+                ranked,
+                if self.ranked_ones > 1 {
+                    "ranked first by the search; the first of the rows tied at rank 1"
+                } else {
+                    "ranked first by the search"
+                },
+            ),
+            (None, None) => {
+                let Some(found) = self.candidate.take() else {
+                    return Err(vec![
+                        Diagnostic::file(
+                            self.file,
+                            format!(
+                                "no trial has the selected configuration's fold scores {}",
+                                show_scores(&selected.folds)
+                            ),
+                        )
+                        .with_help(
+                            "list the chosen configuration among the trials, or name it with search.selected_trial",
+                        ),
+                    ]);
+                };
+                (
+                    found,
+                    if self.matching > 1 {
+                        "the first of several trials with the selected folds"
+                    } else {
+                        "the trial with the selected folds"
+                    },
+                )
+            }
+        };
+        if !same_scores(&found.scores, &selected.folds) {
+            let whose = if by.starts_with("ranked first") {
+                "ranked first by the search"
+            } else {
+                "the manifest's selected_trial"
+            };
+            return Err(vec![
+                Diagnostic::at(
+                    self.file,
+                    found.place,
+                    found.key.clone(),
+                    format!(
+                        "trial {:?} ({whose}) has fold scores {}, but the manifest's selected configuration has {}",
+                        found.id,
+                        show_scores(&found.scores),
+                        show_scores(&selected.folds)
+                    ),
+                )
+                .with_help(
+                    "the folds under search.cv must be the chosen configuration's; name the chosen trial with search.selected_trial",
+                ),
+            ]);
+        }
+        let sign = if self.metric.higher_is_better() {
+            1.0
+        } else {
+            -1.0
+        };
+        let signed: Vec<f64> = found.scores.iter().map(|s| sign * s).collect();
+        let bias = self.bias.finish_for(found.index, &signed).map_err(|e| {
+            vec![Diagnostic::file(
+                self.file,
+                format!("no usable trials: {e}"),
+            )]
+        })?;
+        Ok(Some((bias, found.id, by)))
     }
 
     /// Reads a CSV trials file with an `id` column and `fold_1` … `fold_K` columns.
@@ -167,6 +409,10 @@ impl<'a> TrialReader<'a> {
         };
         let column = |name: &str| header.iter().position(|h| h.trim() == name);
         let id_column = column("id");
+        if id_column.is_none() && super::sklearn::is_cv_results(header.iter()) {
+            self.read_cv_results_csv(&header, csv);
+            return;
+        }
         let fold_columns: Vec<Option<usize>> = (1..=self.folds)
             .map(|k| column(&format!("fold_{k}")))
             .collect();
@@ -181,39 +427,31 @@ impl<'a> TrialReader<'a> {
             .map(|(name, _)| name)
             .collect();
         let (Some(id_column), true) = (id_column, missing.is_empty()) else {
-            self.problem(
-                Place::new(1, 1),
-                "(header)".into(),
-                format!(
-                    "missing column{} {}",
-                    if missing.len() == 1 { "" } else { "s" },
-                    missing.join(", ")
-                ),
-            );
+            if !self.full() {
+                self.problems.push(
+                    Diagnostic::at(
+                        self.file,
+                        Place::new(1, 1),
+                        "(header)",
+                        format!(
+                            "missing column{} {}",
+                            if missing.len() == 1 { "" } else { "s" },
+                            missing.join(", ")
+                        ),
+                    )
+                    .with_help(
+                        "a trials CSV has vetscore's columns (id, fold_1 … fold_K) or is scikit-learn's cv_results_ as pandas writes it (split0_test_score …)",
+                    ),
+                );
+            }
             return;
         };
         let fold_columns: Vec<usize> = fold_columns.into_iter().flatten().collect();
         let mut record = csv::StringRecord::new();
         let mut scores = Vec::with_capacity(self.folds);
         loop {
-            if self.full() {
+            if !self.next_record(&mut csv, &mut record) {
                 return;
-            }
-            match csv.read_record(&mut record) {
-                Ok(false) => return,
-                Ok(true) => {}
-                Err(e) => {
-                    let line = e.position().map(|p| p.line()).unwrap_or(0);
-                    self.problem(
-                        Place {
-                            line: Some(line),
-                            column: None,
-                        },
-                        "(row)".into(),
-                        format!("cannot read the row: {e}"),
-                    );
-                    return;
-                }
             }
             let line = record.position().map(|p| p.line()).unwrap_or(0);
             let place = Place {
@@ -244,6 +482,187 @@ impl<'a> TrialReader<'a> {
                 let id = record.get(id_column).unwrap_or("").to_owned();
                 self.push(place, "", &id, &scores);
             }
+        }
+    }
+
+    /// Reads the next CSV record; false at the end, when full, or after a read error (reported).
+    fn next_record<R: std::io::Read>(
+        &mut self,
+        csv: &mut csv::Reader<R>,
+        record: &mut csv::StringRecord,
+    ) -> bool {
+        if self.full() {
+            return false;
+        }
+        match csv.read_record(record) {
+            Ok(more) => more,
+            Err(e) => {
+                let line = e.position().map(|p| p.line()).unwrap_or(0);
+                self.problem(
+                    Place {
+                        line: Some(line),
+                        column: None,
+                    },
+                    "(row)".into(),
+                    format!("cannot read the row: {e}"),
+                );
+                false
+            }
+        }
+    }
+
+    /// The columns of the scorer to read from scikit-learn's results (a problem when none).
+    fn cv_results_layout(&mut self, columns: &[String]) -> Option<super::sklearn::Layout> {
+        self.cv_results = true;
+        let layout = super::sklearn::layout(
+            self.file,
+            columns,
+            self.metric,
+            self.folds,
+            self.scorer.as_ref(),
+        );
+        layout.map_err(|d| self.problems.push(d)).ok()
+    }
+
+    /// Reads `pandas.DataFrame(search.cv_results_).to_csv()`, header already read.
+    fn read_cv_results_csv<R: std::io::Read>(
+        &mut self,
+        header: &csv::StringRecord,
+        mut csv: csv::Reader<R>,
+    ) {
+        let columns: Vec<String> = header.iter().map(|h| h.trim().to_owned()).collect();
+        let Some(layout) = self.cv_results_layout(&columns) else {
+            return;
+        };
+        let mut record = csv::StringRecord::new();
+        for row in 0u64.. {
+            if !self.next_record(&mut csv, &mut record) {
+                return;
+            }
+            let line = record.position().map(|p| p.line()).unwrap_or(0);
+            let id = layout.id.and_then(|c| record.get(c)).map(str::to_owned);
+            let cell = |c: usize| {
+                let text = record.get(c).unwrap_or("").trim();
+                match text {
+                    "" | "nan" | "NaN" => super::sklearn::Cell::Missing,
+                    t => t
+                        .parse::<f64>()
+                        .map_or(super::sklearn::Cell::Text(t), super::sklearn::Cell::Number),
+                }
+            };
+            let place = |c: Option<usize>| Place {
+                line: Some(line),
+                column: c.map(|c| c as u64 + 1),
+            };
+            let record_cell = cell;
+            self.push_cv_results_row(&layout, row, id, record_cell, place);
+        }
+    }
+
+    /// Reads `pandas.DataFrame(search.cv_results_).to_json()`: the default orientation (an
+    /// object of columns, each an object keyed by the row index), `orient="index"` (an object of
+    /// rows) or `orient="records"` (an array of rows). The whole document is parsed at once,
+    /// since none of these can be read row by row.
+    pub fn read_cv_results_json(&mut self, reader: impl std::io::Read) {
+        use serde_json::Value;
+        let whole = |me: &mut Self, message: String| {
+            me.problems.push(
+                Diagnostic::file(me.file, message).with_help(
+                    "write the results with pandas.DataFrame(search.cv_results_).to_json() (or orient=\"records\")",
+                ),
+            );
+        };
+        let value: Value = match serde_json::from_reader(reader) {
+            Ok(v) => v,
+            Err(e) => {
+                let at = Place::new(e.line() as u64, e.column() as u64);
+                self.problem(at, "(document)".into(), format!("invalid JSON: {e}"));
+                return;
+            }
+        };
+        // Rows as (id, object of columns).
+        let rows: Vec<(Option<String>, serde_json::Map<String, Value>)> = match value {
+            Value::Array(records) => records
+                .into_iter()
+                .map(|r| match r {
+                    Value::Object(o) => (None, o),
+                    _ => (None, serde_json::Map::new()),
+                })
+                .collect(),
+            Value::Object(top) if super::sklearn::is_cv_results(top.keys().map(String::as_str)) => {
+                // Columns orientation: transpose, keeping the index order of the first column.
+                let mut order: Vec<String> = Vec::new();
+                let mut by_id: std::collections::HashMap<String, serde_json::Map<String, Value>> =
+                    std::collections::HashMap::new();
+                for (column, cells) in top {
+                    let Value::Object(cells) = cells else {
+                        whole(self, format!("column {column:?} is not an object of rows"));
+                        return;
+                    };
+                    for (id, v) in cells {
+                        by_id
+                            .entry(id.clone())
+                            .or_insert_with(|| {
+                                order.push(id.clone());
+                                serde_json::Map::new()
+                            })
+                            .insert(column.clone(), v);
+                    }
+                }
+                order
+                    .into_iter()
+                    .map(|id| {
+                        let row = by_id.remove(&id).unwrap_or_default();
+                        (Some(id), row)
+                    })
+                    .collect()
+            }
+            Value::Object(top) => top
+                .into_iter()
+                .map(|(id, r)| match r {
+                    Value::Object(o) => (Some(id), o),
+                    _ => (Some(id), serde_json::Map::new()),
+                })
+                .collect(),
+            _ => {
+                whole(
+                    self,
+                    "expected an object or an array of search results".into(),
+                );
+                return;
+            }
+        };
+        let Some((_, first)) = rows.first() else {
+            whole(self, "the results hold no rows".into());
+            return;
+        };
+        let columns: Vec<String> = first.keys().cloned().collect();
+        if !super::sklearn::is_cv_results(columns.iter().map(String::as_str)) {
+            whole(
+                self,
+                "no split0_test_… column: this is not scikit-learn's cv_results_".into(),
+            );
+            return;
+        }
+        let Some(layout) = self.cv_results_layout(&columns) else {
+            return;
+        };
+        for (row, (id, cells)) in rows.iter().enumerate() {
+            if self.full() {
+                return;
+            }
+            let cell = |c: usize| match cells.get(&layout.names[c]) {
+                None | Some(Value::Null) => super::sklearn::Cell::Missing,
+                Some(Value::Number(n)) => n
+                    .as_f64()
+                    .map_or(super::sklearn::Cell::Missing, super::sklearn::Cell::Number),
+                Some(_) => super::sklearn::Cell::Text("(not a number)"),
+            };
+            let place = |_: Option<usize>| Place {
+                line: None,
+                column: None,
+            };
+            self.push_cv_results_row(&layout, row as u64, id.clone(), cell, place);
         }
     }
 
@@ -294,16 +713,28 @@ impl<'a> TrialReader<'a> {
     }
 
     /// The summary, or every problem found.
-    pub fn finish(self) -> Result<TrialSummary, Vec<Diagnostic>> {
+    pub fn finish(mut self) -> Result<TrialSummary, Vec<Diagnostic>> {
+        if let (Some(s), false) = (&self.scorer, self.cv_results) {
+            self.problems.push(Diagnostic::at(
+                &s.file,
+                s.place,
+                s.path.clone(),
+                "scorer names a column set of scikit-learn's cv_results_, but the trials are not a scikit-learn results file",
+            ));
+        }
         if !self.problems.is_empty() {
             return Err(self.problems);
         }
-        let mut bias = self.bias.finish().map_err(|e| {
+        let argmax = self.bias.finish().map_err(|e| {
             vec![Diagnostic::file(
                 self.file,
                 format!("no usable trials: {e}"),
             )]
         })?;
+        let (mut bias, selected_id, selected_by) = match self.selected_bias()? {
+            Some((bias, id, by)) => (bias, Some(id), Some(by)),
+            None => (argmax, None, None),
+        };
         if !self.metric.higher_is_better() {
             bias.naive_best = -bias.naive_best;
             bias.corrected = -bias.corrected;
@@ -312,6 +743,8 @@ impl<'a> TrialReader<'a> {
             trials: bias.trials,
             bias,
             histogram: self.histogram.bins(HISTOGRAM_BINS),
+            selected_id,
+            selected_by,
         })
     }
 }
@@ -330,8 +763,10 @@ pub fn read_file(
     path: &Path,
     named_by: &str,
     metric: Metric,
-    folds: usize,
+    selected: Selected,
+    scorer: Option<super::sklearn::ScorerName>,
 ) -> Result<TrialSummary, Vec<Diagnostic>> {
+    let folds = selected.folds.len();
     let shown = path.display().to_string();
     let refuse = |reason: String| {
         vec![Diagnostic::file(
@@ -357,9 +792,24 @@ pub fn read_file(
             metadata.len()
         )));
     }
-    let mut reader = TrialReader::new(&shown, metric, folds);
+    let json = path.extension().and_then(|e| e.to_str()) == Some("json");
+    if json && metadata.len() > MAX_CV_RESULTS_JSON_BYTES {
+        return Err(refuse(format!(
+            "it is {} bytes; a JSON results file is read whole and may hold at most {MAX_CV_RESULTS_JSON_BYTES} bytes (write it with to_csv, which is streamed)",
+            metadata.len()
+        )));
+    }
+    let mut reader = TrialReader::new(&shown, metric, folds)
+        .select(selected)
+        .scorer(scorer);
     let file = LineLimit::new(file);
     match path.extension().and_then(|e| e.to_str()) {
+        // pandas writes the whole document on one line, so no line limit applies; the size
+        // limit bounds it.
+        Some("json") => reader.read_cv_results_json(std::io::BufReader::with_capacity(
+            1 << 16,
+            file.into_inner(),
+        )),
         Some("jsonl" | "ndjson") => {
             reader.read_jsonl(std::io::BufReader::with_capacity(1 << 16, file))
         }
@@ -382,6 +832,10 @@ struct LineLimit<R> {
 impl<R> LineLimit<R> {
     fn new(inner: R) -> Self {
         LineLimit { inner, line: 0 }
+    }
+
+    fn into_inner(self) -> R {
+        self.inner
     }
 }
 

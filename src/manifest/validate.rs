@@ -488,6 +488,28 @@ impl Validator<'_> {
             );
         }
         let cv = self.cv(&format!("{path}.cv"), metric, data, raw.cv)?;
+        let selected = trials::Selected {
+            folds: cv.folds.iter().map(|f| f.score).collect(),
+            named: raw.selected_trial.as_ref().map(|s| trials::Named {
+                id: trials::id_text(&s.value),
+                file: self.file.to_owned(),
+                place: Place::of(&s.referenced),
+                path: format!("{path}.selected_trial"),
+            }),
+        };
+        if let (Some(s), None, None) = (&raw.selected_trial, &raw.trials, &raw.trials_file) {
+            self.problem(
+                Place::of(&s.referenced),
+                &format!("{path}.selected_trial"),
+                "selected_trial names a trial, but the search lists no trials (`trials` or `trials_file`)",
+            );
+        }
+        let scorer = raw.scorer.as_ref().map(|s| super::sklearn::ScorerName {
+            name: s.value.clone(),
+            file: self.file.to_owned(),
+            place: Place::of(&s.referenced),
+            path: format!("{path}.scorer"),
+        });
         let trials = match (raw.trials, raw.trials_file) {
             (Some(_), Some(_)) => {
                 self.problem(
@@ -497,14 +519,24 @@ impl Validator<'_> {
                 );
                 None
             }
-            (Some(inline), None) => self.inline_trials(path, metric, cv.folds.len(), inline),
+            (Some(inline), None) => {
+                if let Some(s) = &scorer {
+                    self.problem(
+                        s.place,
+                        &s.path,
+                        "scorer applies to a scikit-learn results file (trials_file), not to inline trials",
+                    );
+                }
+                self.inline_trials(path, metric, selected, inline)
+            }
             (None, Some(file)) => {
                 let resolved = self.resolve(place, &format!("{path}.trials_file"), &file)?;
                 match trials::read_file(
                     &resolved,
                     &format!("{path}.trials_file in {}", self.file),
                     metric,
-                    cv.folds.len(),
+                    selected,
+                    scorer,
                 ) {
                     Ok(summary) => Some(summary),
                     Err(problems) => {
@@ -513,7 +545,16 @@ impl Validator<'_> {
                     }
                 }
             }
-            (None, None) => None,
+            (None, None) => {
+                if let Some(s) = &scorer {
+                    self.problem(
+                        s.place,
+                        &s.path,
+                        "scorer applies to a scikit-learn results file (trials_file), but the search lists no trials",
+                    );
+                }
+                None
+            }
         };
         let configurations = match (raw.configurations, &trials) {
             (Some(stated), Some(t)) if stated != t.trials => {
@@ -552,10 +593,10 @@ impl Validator<'_> {
         &mut self,
         path: &str,
         metric: Metric,
-        folds: usize,
+        selected: trials::Selected,
         inline: Vec<Spanned<RawTrial>>,
     ) -> Option<TrialSummary> {
-        let mut reader = TrialReader::new(self.file, metric, folds);
+        let mut reader = TrialReader::new(self.file, metric, selected.folds.len()).select(selected);
         for (i, t) in inline.into_iter().enumerate() {
             let place = Place::of(&t.referenced);
             reader.push(
@@ -609,7 +650,24 @@ impl Validator<'_> {
         } else {
             2
         };
-        if raw.folds.len() < min_folds {
+        if raw.scheme == CvScheme::ValidationSplit {
+            if raw.folds.len() != 1 {
+                self.out.push(
+                    Diagnostic::at(
+                        self.file,
+                        place,
+                        format!("{path}.folds"),
+                        format!(
+                            "a validation split is one entry (its rows and score), found {}",
+                            raw.folds.len()
+                        ),
+                    )
+                    .with_help(
+                        "several folds are a k-fold scheme; one held-out split is one entry",
+                    ),
+                );
+            }
+        } else if raw.folds.len() < min_folds {
             self.problem(
                 place,
                 &format!("{path}.folds"),
@@ -662,6 +720,20 @@ impl Validator<'_> {
                 )
                 .with_help("row counts are used in floating-point statistics, which count exactly only up to 2^53"),
             );
+        } else if scheme == CvScheme::ValidationSplit {
+            if total >= u128::from(train_rows) {
+                self.out.push(
+                    Diagnostic::at(
+                        self.file,
+                        place,
+                        path,
+                        format!(
+                            "the validation split holds {total} rows, which leaves none of the {train_rows} training rows to train on"
+                        ),
+                    )
+                    .with_help("train_rows counts the rows of training and validation together; the validation split is part of them"),
+                );
+            }
         } else if scheme == CvScheme::TimeOrdered {
             if total > u128::from(train_rows) {
                 self.problem(

@@ -61,7 +61,8 @@ best of N configurations reaches the observed CV score if every configuration's 
 were the test score, 1 − F(⌈n·x⌉ − 1; n, p)^N. A large value means luck alone explains the CV \
 score. (3) Tibshirani & Tibshirani (2009), when every trial's fold scores are given: the mean over \
 folds of (best score on that fold − the selected configuration's score on it), which needs no \
-independence assumption. For a claim with basis `cv`, the policy's `gate` decides: the claim \
+independence assumption; the selected configuration is the one the manifest reports (its \
+`selected_trial`, or the trial whose folds are `cv.folds`), never simply the best trial. For a claim with basis `cv`, the policy's `gate` decides: the claim \
 must not exceed the CV interval's bound shifted by the estimated optimism (or, for the binomial \
 tail when luck explains the CV score, the test interval's bound). A claim with basis `test` \
 rests on an untouched split and passes; the estimates are reported for information. Remedies: a \
@@ -157,6 +158,15 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
     let tt = search.trials.as_ref().map(|t| t.bias);
     if let Some(b) = tt {
         evidence.push(Evidence::count("trials", "Trials listed", b.trials));
+        if let Some(t) = &search.trials
+            && let (Some(id), Some(by)) = (&t.selected_id, t.selected_by)
+        {
+            evidence.push(Evidence::text(
+                "selected_trial",
+                "Trial the bias is computed for",
+                format!("{id} ({by})"),
+            ));
+        }
         evidence.push(Evidence::number(
             "tt_bias",
             "Tibshirani & Tibshirani bias",

@@ -7,7 +7,9 @@
 //! Method (Tibshirani, R. J. & Tibshirani, R. (2009), Ann. Appl. Stat. 3(2):822–829, stated for
 //! scores): with s_k(θ) the score of trial θ on fold k, θ̂ = argmax_θ mean_k s_k(θ) (the first
 //! trial wins ties), the bias estimate is B̂ = (1/K) Σ_k [max_θ s_k(θ) − s_k(θ̂)] ≥ 0 and the
-//! corrected score is mean_k s_k(θ̂) − B̂.
+//! corrected score is mean_k s_k(θ̂) − B̂. When the search's own choice θ̂ is known (a manifest
+//! names it, or it is the trial whose folds are the reported ones), [`SelectionBias::finish_for`]
+//! takes it instead of the argmax: the bias must describe the configuration that was reported.
 //!
 //! Must not: keep every trial's scores (memory must not grow with the number of trials).
 
@@ -123,10 +125,64 @@ impl SelectionBias {
     }
 }
 
+impl SelectionBias {
+    /// The estimate for a selected trial given by its push index and fold scores (which must be
+    /// the scores pushed at that index), instead of the best mean.
+    /// Errors: `folds` is 0; no trial was pushed; the index or the number of scores is wrong.
+    pub fn finish_for(&self, index: usize, scores: &[f64]) -> Result<BiasEstimate> {
+        self.check_folds()?;
+        if self.trials == 0 {
+            return Err(StatsError::TooFewValues { needed: 1, got: 0 });
+        }
+        if scores.len() != self.folds || index as u64 >= self.trials {
+            return Err(StatsError::LengthMismatch {
+                name: "selected fold_scores",
+                expected: self.folds,
+                got: scores.len(),
+            });
+        }
+        let mean = scores.iter().sum::<f64>() / self.folds as f64;
+        // Every pushed trial, the selected one included, is at most its fold's maximum, so each
+        // term is ≥ 0; `max(0.0)` only absorbs the rounding of equal values.
+        let gap: f64 = self
+            .fold_max
+            .iter()
+            .zip(scores)
+            .map(|(max, s)| (max - s).max(0.0))
+            .sum();
+        let bias = gap / self.folds as f64;
+        Ok(BiasEstimate {
+            selected_index: index,
+            naive_best: mean,
+            bias,
+            corrected: mean - bias,
+            trials: self.trials,
+        })
+    }
+}
+
 #[cfg(test)]
 #[allow(clippy::unwrap_used)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn the_named_trial_carries_the_bias_of_the_others() {
+        // Selected folds at 0.70 beside a trial at 0.90 on every fold: per-fold maxima 0.90, so
+        // B̂ = mean(0.90 − 0.70) = 0.20 and the corrected score 0.50 (hand arithmetic,
+        // Tibshirani & Tibshirani 2009 with θ̂ the reported configuration).
+        let mut acc = SelectionBias::new(2);
+        acc.push(&[0.9, 0.9]).unwrap();
+        acc.push(&[0.7, 0.7]).unwrap();
+        let e = acc.finish_for(1, &[0.7, 0.7]).unwrap();
+        assert!((e.bias - 0.2).abs() < 1e-12);
+        assert!((e.corrected - 0.5).abs() < 1e-12);
+        assert_eq!(e.selected_index, 1);
+        // The argmax would describe the other trial, with no bias at all.
+        assert_eq!(acc.finish().unwrap().bias, 0.0);
+        assert!(acc.finish_for(2, &[0.7, 0.7]).is_err());
+        assert!(acc.finish_for(0, &[0.7]).is_err());
+    }
 
     #[test]
     fn single_trial_has_no_bias() {
