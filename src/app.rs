@@ -194,13 +194,35 @@ fn report_problems(problems: &[Diagnostic], what: &str) -> Exit {
 
 fn ledger(action: LedgerAction) -> Result<Exit> {
     match action {
-        LedgerAction::Verify { ledger } => match crate::ledger::store::read(&ledger, false) {
+        LedgerAction::Verify {
+            ledger,
+            ledger_head,
+        } => {
+            let heads: Vec<(&str, &crate::ledger::Head)> =
+                ledger_head.iter().map(|h| ("--ledger-head", h)).collect();
+            let read = crate::ledger::store::read_anchored(&ledger, false, &heads);
+            match read {
+                Ok(crate::ledger::store::Loaded { entries, .. }) => {
+                    let head = crate::ledger::Head::of(&entries);
+                    let anchored = match &ledger_head {
+                        Some(h) => format!("; extends the trusted head {h}"),
+                        None => "; no trusted head given, so entries cut off the end or a \
+                                 rewritten chain would not show"
+                            .to_owned(),
+                    };
+                    outln!(
+                        "{}: {} entries, hash chain intact{anchored}; head {head}",
+                        ledger.display(),
+                        entries.len()
+                    );
+                    Ok(Exit::Supported)
+                }
+                Err(d) => Ok(report_problems(&[d], "the ledger cannot be trusted")),
+            }
+        }
+        LedgerAction::Head { ledger } => match crate::ledger::store::read(&ledger, true) {
             Ok(entries) => {
-                outln!(
-                    "{}: {} entries, hash chain intact",
-                    ledger.display(),
-                    entries.len()
-                );
+                outln!("{}", crate::ledger::Head::of(&entries));
                 Ok(Exit::Supported)
             }
             Err(d) => Ok(report_problems(&[d], "the ledger cannot be trusted")),
@@ -299,12 +321,6 @@ fn check(args: &CheckArgs) -> Result<Exit> {
         .as_ref()
         .and_then(|path| Policy::load(path).map_err(|d| problems.extend(d)).ok());
     let models = load_models(&args.manifests, args.root.as_deref(), &mut problems);
-    let ledger = match &args.ledger {
-        Some(path) => crate::ledger::store::read(path, false)
-            .map_err(|d| problems.push(d))
-            .unwrap_or_default(),
-        None => Vec::new(),
-    };
     let base_report = args.baseline.as_ref().and_then(|path| {
         crate::input::read_text(path)
             .and_then(|text| {
@@ -313,6 +329,17 @@ fn check(args: &CheckArgs) -> Result<Exit> {
             })
             .map_err(|d| problems.push(d))
             .ok()
+    });
+    let base_head = base_report
+        .as_ref()
+        .and_then(report::since::BaseReport::ledger_head);
+    let ledger = args.ledger.as_ref().and_then(|path| {
+        read_ledger(
+            path,
+            args.ledger_head.as_ref(),
+            base_head.as_ref(),
+            &mut problems,
+        )
     });
     let (Some(policy), Some(today), true) = (policy, today, problems.is_empty()) else {
         return Ok(report_problems(&problems, "nothing was checked"));
@@ -323,7 +350,7 @@ fn check(args: &CheckArgs) -> Result<Exit> {
         .map(report::since::BaseReport::test_splits);
     let assessment = evaluate::evaluate(
         models,
-        &ledger,
+        ledger.as_ref().map_or(&[][..], |(l, _)| &l.entries),
         &policy,
         base_policy.as_ref(),
         base_splits.as_ref(),
@@ -333,6 +360,7 @@ fn check(args: &CheckArgs) -> Result<Exit> {
     view.since_base = base_report
         .as_ref()
         .map(|base| report::since::compare(base, &view.models));
+    view.ledger_head = ledger.map(|(_, v)| v);
     let templates = match &args.templates {
         Some(dir) => Templates::with_overrides(dir)?,
         None => Templates::built_in(),
@@ -373,6 +401,51 @@ fn check(args: &CheckArgs) -> Result<Exit> {
         Verdict::NotSupported => Exit::NotSupported,
         Verdict::Supported | Verdict::SupportedWithWarnings => Exit::Supported,
     })
+}
+
+/// Reads the `--ledger` of a check and verifies it extends the trusted heads given; returns it
+/// with its view for the report, or records the problem.
+fn read_ledger(
+    path: &Path,
+    flag: Option<&crate::ledger::Head>,
+    baseline: Option<&crate::ledger::Head>,
+    problems: &mut Vec<Diagnostic>,
+) -> Option<(crate::ledger::store::Loaded, view::LedgerView)> {
+    let heads: Vec<(&'static str, &crate::ledger::Head)> =
+        [("--ledger-head", flag), ("baseline", baseline)]
+            .into_iter()
+            .filter_map(|(source, head)| head.map(|h| (source, h)))
+            .collect();
+    let named: Vec<(&str, &crate::ledger::Head)> = heads
+        .iter()
+        .map(|&(source, h)| {
+            let source = if source == "baseline" {
+                "the ledger_head of the --baseline report"
+            } else {
+                source
+            };
+            (source, h)
+        })
+        .collect();
+    let loaded = crate::ledger::store::read_anchored(path, true, &named)
+        .map_err(|d| problems.push(d))
+        .ok()?;
+    let head = crate::ledger::Head::of(&loaded.entries);
+    let view = view::LedgerView {
+        file: path.display().to_string(),
+        entries: head.entries,
+        last_hash: head.last_hash,
+        file_missing: loaded.missing,
+        extends: heads
+            .iter()
+            .map(|&(source, h)| view::LedgerAnchor {
+                source,
+                entries: h.entries,
+                last_hash: h.last_hash.clone(),
+            })
+            .collect(),
+    };
+    Some((loaded, view))
 }
 
 /// Expands glob patterns; a pattern that matches nothing is an input problem.

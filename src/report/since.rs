@@ -16,6 +16,15 @@ pub struct BaseReport {
     report_version: u32,
     verdict: String,
     models: Vec<BaseModel>,
+    #[serde(default)]
+    ledger_head: Option<BaseLedger>,
+}
+
+/// Where the ledger the base branch's check read ended.
+#[derive(Debug, Deserialize)]
+struct BaseLedger {
+    entries: u64,
+    last_hash: String,
 }
 
 impl BaseReport {
@@ -29,7 +38,19 @@ impl BaseReport {
                 base.report_version
             ));
         }
+        if let Some(head) = base.ledger_head() {
+            head.check().map_err(|m| format!("ledger_head: {m}"))?;
+        }
         Ok(base)
+    }
+
+    /// The head of the ledger the base branch's check read: a ledger a later check reads must
+    /// extend it.
+    pub fn ledger_head(&self) -> Option<crate::ledger::Head> {
+        self.ledger_head.as_ref().map(|l| crate::ledger::Head {
+            entries: l.entries,
+            last_hash: l.last_hash.clone(),
+        })
     }
 
     /// Each model's test fingerprint in the base report.
