@@ -256,6 +256,28 @@ fn load_models(
     problems: &mut Vec<Diagnostic>,
 ) -> Vec<Model> {
     let root = root.map_or_else(|| PathBuf::from("."), Path::to_path_buf);
+    // Confinement needs a real directory; a missing one is an input error, never "no limit".
+    match root.canonicalize() {
+        Ok(real) if real.is_dir() => {}
+        Ok(_) => {
+            problems.push(Diagnostic::file(
+                "--root",
+                format!("{} is not a directory", root.display()),
+            ));
+            return Vec::new();
+        }
+        Err(e) => {
+            problems.push(Diagnostic::file(
+                "--root",
+                format!(
+                    "the root directory {} cannot be resolved: {}",
+                    root.display(),
+                    crate::input::io_reason(&e)
+                ),
+            ));
+            return Vec::new();
+        }
+    }
     let mut models: Vec<Model> = Vec::new();
     for path in expand(patterns, problems) {
         match manifest::load(&path, &root) {
