@@ -39,3 +39,129 @@ fn a_root_that_cannot_be_resolved_confines_by_refusing() {
     assert_eq!(out.status.code(), Some(2), "{}", stderr(&out));
     assert!(stderr(&out).contains("--root: the root directory"));
 }
+
+/// A multiclass F1 model whose predictions file has `classes` classes, two rows each (the true
+/// class, predicted right on the first row and as the next class on the second), and a
+/// baseline file of the same rows.
+fn many_classes(dir: &std::path::Path, classes: usize, policy: &str) -> Vec<String> {
+    let mut predictions = String::from("id,label,prediction\n");
+    let mut baseline = String::from("id,label,prediction\n");
+    for c in 0..classes {
+        let next = (c + 1) % classes;
+        predictions.push_str(&format!("a{c},c{c},c{c}\nb{c},c{c},c{next}\n"));
+        baseline.push_str(&format!("a{c},c{c},c{next}\nb{c},c{c},c{c}\n"));
+    }
+    std::fs::write(dir.join("predictions.csv"), predictions).unwrap();
+    std::fs::write(dir.join("baseline.csv"), baseline).unwrap();
+    let rows = 2 * classes;
+    std::fs::write(
+        dir.join("manifest.yaml"),
+        format!(
+            "format_version: 1\nmodels:\n  - name: many-classes\n    task: multiclass\n    \
+             metric: f1\n    data: {{train_rows: {rows}, test_rows: {rows}, test_fingerprint: \"fp\"}}\n    \
+             holdout:\n      - {{time: 2026-11-20T10:00:00Z, score: 0.5}}\n    \
+             predictions: {{file: predictions.csv, f1_average: macro}}\n    \
+             baseline: {{name: older, predictions_file: baseline.csv}}\n    \
+             claim: {{value: 0.5, basis: test, beats_baseline: true}}\n"
+        ),
+    )
+    .unwrap();
+    std::fs::write(dir.join("policy.yaml"), policy).unwrap();
+    [
+        "check",
+        "--today",
+        "2026-12-01",
+        "--root",
+        dir.to_str().unwrap(),
+        "--policy",
+        dir.join("policy.yaml").to_str().unwrap(),
+        "--json",
+        dir.join("report.json").to_str().unwrap(),
+        dir.join("manifest.yaml").to_str().unwrap(),
+    ]
+    .map(str::to_owned)
+    .to_vec()
+}
+
+fn report_of(dir: &std::path::Path) -> serde_json::Value {
+    serde_json::from_str(&std::fs::read_to_string(dir.join("report.json")).unwrap()).unwrap()
+}
+
+fn finding<'a>(report: &'a serde_json::Value, rule: &str) -> &'a serde_json::Value {
+    report["models"][0]["findings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|f| f["rule"] == rule)
+        .unwrap()
+}
+
+#[test]
+fn a_bootstrap_over_thousands_of_classes_is_refused_not_run_for_minutes() {
+    // 4,096 classes in a 74 KB file: 16.8 M cells per resample; the F1 bootstrap took 423 s.
+    let dir = tempfile::tempdir().unwrap();
+    let args = many_classes(dir.path(), 4096, "format_version: 1\n");
+    let argv: Vec<&str> = args.iter().map(String::as_str).collect();
+    let out = vetscore(&argv);
+    // The interval cannot be formed, so recompute is inconclusive: with the default
+    // `inconclusive: fail` the claim is not supported (exit 1), never a pass.
+    assert_eq!(out.status.code(), Some(1), "{}", stderr(&out));
+    let report = report_of(dir.path());
+    let recompute = finding(&report, "recompute");
+    assert_eq!(recompute["status"], "inconclusive", "{recompute}");
+    assert!(
+        recompute["message"]
+            .as_str()
+            .unwrap()
+            .contains("even 100 resamples pass the limit"),
+        "{recompute}"
+    );
+}
+
+#[test]
+fn the_largest_resample_count_is_lowered_to_what_fits_and_the_report_says_so() {
+    // 256 classes with `bootstrap_resamples: 1000000`: 6.6e10 cell draws, 288 s before. The
+    // count used is the cap's share, 5e7 / 65,536 = 762 (arithmetic on the documented cap).
+    let dir = tempfile::tempdir().unwrap();
+    let policy = "format_version: 1\nbootstrap_resamples: 1000000\n";
+    let args = many_classes(dir.path(), 256, policy);
+    let argv: Vec<&str> = args.iter().map(String::as_str).collect();
+    let out = vetscore(&argv);
+    assert!(matches!(out.status.code(), Some(0 | 1)), "{}", stderr(&out));
+    let report = report_of(dir.path());
+    let basis = &report["models"][0]["test"]["basis"];
+    assert_eq!(basis["method"]["resamples"], 762, "{basis}");
+    // The paired bootstrap against the baseline is limited to 64 classes; its message says so.
+    let paired = finding(&report, "baseline_improvement");
+    assert!(
+        paired["message"].as_str().unwrap().contains("64 classes"),
+        "{paired}"
+    );
+}
+
+#[test]
+fn the_paired_bootstrap_names_the_resamples_it_used() {
+    // 16 classes (4,096 cells of the joint table) afford the policy's 300: 1.2 M draws. (What
+    // larger tables are lowered to is arithmetic, in the unit test beside the cap.)
+    let dir = tempfile::tempdir().unwrap();
+    let args = many_classes(
+        dir.path(),
+        16,
+        "format_version: 1\nbootstrap_resamples: 300\n",
+    );
+    let argv: Vec<&str> = args.iter().map(String::as_str).collect();
+    let out = vetscore(&argv);
+    assert!(matches!(out.status.code(), Some(0 | 1)), "{}", stderr(&out));
+    let report = report_of(dir.path());
+    let paired = finding(&report, "baseline_improvement");
+    let test = paired["evidence"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|e| e["key"] == "test")
+        .unwrap();
+    assert_eq!(
+        test["value"], "paired bootstrap of the joint confusion table, 300 resamples",
+        "{paired}"
+    );
+}
