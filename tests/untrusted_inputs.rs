@@ -165,3 +165,127 @@ fn the_paired_bootstrap_names_the_resamples_it_used() {
         "{paired}"
     );
 }
+
+#[path = "../fuzz/harness.rs"]
+mod harness;
+
+/// The test-split-changed scenario's base report (a real report), edited by `edit`; returns the
+/// exit code, standard error and the Markdown of a check against it.
+fn against_base(edit: impl Fn(&mut serde_json::Value)) -> (Option<i32>, String, String) {
+    let scenario = common::root().join("fixtures/scenarios/test-split-changed");
+    let mut base: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(scenario.join("base-report.json")).unwrap())
+            .unwrap();
+    edit(&mut base);
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("base.json");
+    std::fs::write(&path, base.to_string()).unwrap();
+    let markdown = dir.path().join("report.md");
+    let out = vetscore(&[
+        "check",
+        "--today",
+        "2026-12-01",
+        "--baseline",
+        path.to_str().unwrap(),
+        "--markdown",
+        markdown.to_str().unwrap(),
+        scenario.join("manifest.yaml").to_str().unwrap(),
+    ]);
+    let text = std::fs::read_to_string(&markdown).unwrap_or_default();
+    (out.status.code(), stderr(&out), text)
+}
+
+const HOSTILE: &str = "<img src=x onerror=alert(1)> [link](https://example.invalid) @reviewers \
+                       <!-- vetscore:report --> ![i](x)";
+
+#[test]
+fn a_base_report_cannot_inject_markup_into_the_comment() {
+    // Names are free text in a report: a removed model with a hostile name is shown escaped.
+    let (code, err, markdown) = against_base(|b| {
+        let mut extra = b["models"][0].clone();
+        extra["name"] = HOSTILE.into();
+        b["models"].as_array_mut().unwrap().push(extra);
+    });
+    assert_eq!(code, Some(1), "{err}");
+    assert!(markdown.contains("Model removed: "), "{markdown}");
+    assert_eq!(markdown.matches("vetscore:report").count(), 1, "{markdown}");
+    // Headings: the title, the "since the base branch" section and one per model (two), which
+    // the harness counts as 1 + models.
+    harness::assert_inert(&markdown, 3);
+
+    // Verdicts, statuses and effects are the report's own words: anything else is refused.
+    for field in [
+        "verdict",
+        "/models/0/verdict",
+        "/models/0/findings/0/status",
+    ] {
+        let (code, err, markdown) = against_base(|b| {
+            let target = if field == "verdict" {
+                &mut b["verdict"]
+            } else {
+                b.pointer_mut(field).unwrap()
+            };
+            *target = HOSTILE.into();
+        });
+        assert_eq!(code, Some(2), "{field}: {err}");
+        assert!(err.contains("not a vetscore JSON report"), "{field}: {err}");
+        assert!(markdown.is_empty());
+    }
+    // A finding's rule must be a rule id.
+    let (code, err, _) = against_base(|b| b["models"][0]["findings"][0]["rule"] = HOSTILE.into());
+    assert_eq!(code, Some(2), "{err}");
+    assert!(err.contains("is not a rule id"), "{err}");
+}
+
+#[test]
+fn a_base_report_of_another_version_is_refused_with_its_version() {
+    let (code, err, _) = against_base(|b| b["report_version"] = 1.into());
+    assert_eq!(code, Some(2), "{err}");
+    assert!(err.contains("expected report version 2, found 1"), "{err}");
+}
+
+#[test]
+fn the_base_report_check_agrees_with_the_jsonschema_crate() {
+    // Reference: the jsonschema crate (0.61, a general-purpose validator) on the published
+    // schema, for a real report and for mutations of it.
+    let schema = serde_json::to_value(vetscore::report::schema()).unwrap();
+    let reference = jsonschema::validator_for(&schema).unwrap();
+    let base: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(
+            common::root().join("fixtures/scenarios/test-split-changed/base-report.json"),
+        )
+        .unwrap(),
+    )
+    .unwrap();
+    let mutations: Vec<(&str, serde_json::Value)> = vec![
+        ("", serde_json::Value::Null),
+        ("/verdict", "fine".into()),
+        ("/verdict", "supported".into()),
+        ("/report_version", (-2).into()),
+        ("/report_version", 1.5.into()),
+        ("/models/0/findings/0/effect", "hides".into()),
+        ("/models/0/findings/0/evidence/0/type", "text".into()),
+        ("/models/0/test", serde_json::Value::Null),
+        ("/models/0/test/rows", "many".into()),
+        ("/models", serde_json::json!({})),
+        ("/counts/models", 4294967296u64.into()),
+        (
+            "/ledger_head",
+            serde_json::json!({"file": "l", "entries": 1}),
+        ),
+    ];
+    for (at, value) in mutations {
+        let mut report = base.clone();
+        if at.is_empty() {
+            report = value;
+        } else {
+            *report.pointer_mut(at).unwrap_or_else(|| panic!("{at}")) = value;
+        }
+        let ours = vetscore::report::schema_check::check(&schema, &report);
+        assert_eq!(
+            ours.is_empty(),
+            reference.is_valid(&report),
+            "{at}: ours {ours:?}"
+        );
+    }
+}

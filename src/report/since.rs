@@ -13,7 +13,6 @@ use super::view::{Effect, EstimateView, ModelView, REPORT_VERSION};
 /// The base branch's JSON report, as far as the comparison reads it.
 #[derive(Debug, Deserialize)]
 pub struct BaseReport {
-    report_version: u32,
     verdict: String,
     models: Vec<BaseModel>,
     #[serde(default)]
@@ -28,14 +27,48 @@ struct BaseLedger {
 }
 
 impl BaseReport {
-    /// Parses a base report; errors say what is wrong with it.
+    /// Parses a base report; errors say what is wrong with it. The report must have the
+    /// structure `vetscore schema report` publishes (it is the base branch's artifact, but still
+    /// a file): verdicts and statuses are then the report's own words, never free text.
     pub fn parse(text: &str) -> Result<BaseReport, String> {
-        let base: BaseReport =
+        let value: serde_json::Value =
             serde_json::from_str(text).map_err(|e| format!("not a vetscore JSON report: {e}"))?;
-        if base.report_version != REPORT_VERSION {
+        if let Some(version) = value
+            .get("report_version")
+            .and_then(serde_json::Value::as_u64)
+            && version != u64::from(REPORT_VERSION)
+        {
             return Err(format!(
-                "expected report version {REPORT_VERSION}, found {}",
-                base.report_version
+                "expected report version {REPORT_VERSION}, found {version}; regenerate the base \
+                 branch's report with this version of vetscore"
+            ));
+        }
+        let schema = serde_json::to_value(super::schema()).map_err(|e| e.to_string())?;
+        let problems = super::schema_check::check(&schema, &value);
+        if !problems.is_empty() {
+            return Err(format!(
+                "not a vetscore JSON report of version {REPORT_VERSION} (`vetscore schema report`): {}",
+                problems.join("; ")
+            ));
+        }
+        let base: BaseReport = serde_json::from_value(value)
+            .map_err(|e| format!("not a vetscore JSON report: {e}"))?;
+        if let Some(bad) = base
+            .models
+            .iter()
+            .flat_map(|m| &m.findings)
+            .map(|f| f.rule.as_str())
+            .find(|r| {
+                r.is_empty()
+                    || r.len() > 64
+                    || !r
+                        .bytes()
+                        .all(|b| b.is_ascii_lowercase() || b.is_ascii_digit() || b == b'_')
+            })
+        {
+            return Err(format!(
+                "not a vetscore JSON report: finding rule {} is not a rule id",
+                serde_json::Value::from(bad)
             ));
         }
         if let Some(head) = base.ledger_head() {
