@@ -478,26 +478,14 @@ fn expand(patterns: &[String], problems: &mut Vec<Diagnostic>) -> Vec<PathBuf> {
             paths.push(PathBuf::from(pattern));
             continue;
         }
-        match glob::glob(pattern) {
-            Ok(entries) => {
-                let before = paths.len();
-                for entry in entries {
-                    match entry {
-                        Ok(path) => paths.push(path),
-                        Err(e) => problems.push(Diagnostic::file(
-                            e.path().display().to_string(),
-                            format!("cannot read: {}", e.error()),
-                        )),
-                    }
-                }
-                if paths.len() == before {
+        match walk_glob(pattern, problems) {
+            Ok(found) => {
+                if found.is_empty() {
                     problems.push(Diagnostic::file(pattern, "pattern matched no file"));
                 }
+                paths.extend(found);
             }
-            Err(e) => problems.push(Diagnostic::file(
-                pattern,
-                format!("invalid glob pattern: {}", e.msg),
-            )),
+            Err(message) => problems.push(Diagnostic::file(pattern, message)),
         }
     }
     paths.sort();
@@ -505,11 +493,88 @@ fn expand(patterns: &[String], problems: &mut Vec<Diagnostic>) -> Vec<PathBuf> {
     paths
 }
 
+/// Most directory entries one glob pattern may visit: a bound on the walk whatever the tree.
+const MAX_GLOB_ENTRIES: usize = 1_000_000;
+
+/// The files matching a glob pattern (`*` and `?` within one path component, `**` across
+/// directories, `[...]` classes). The walk starts at the pattern's literal leading directories,
+/// never descends into a directory reached through a symbolic link (a `dir -> .` link made the
+/// old walk endless), and stops with an error after [`MAX_GLOB_ENTRIES`] entries. Directories
+/// that cannot be read are problems; other entries that are not files are skipped.
+fn walk_glob(pattern: &str, problems: &mut Vec<Diagnostic>) -> Result<Vec<PathBuf>, String> {
+    let matcher = globset::GlobBuilder::new(pattern)
+        .literal_separator(true)
+        .build()
+        .map_err(|e| format!("invalid glob pattern: {}", e.kind()))?
+        .compile_matcher();
+    let literal: Vec<&str> = pattern
+        .split('/')
+        .take_while(|c| !c.contains(['*', '?', '[', '{']))
+        .collect();
+    let base = if literal.is_empty() {
+        PathBuf::from(".")
+    } else if literal == [""] {
+        PathBuf::from("/")
+    } else {
+        PathBuf::from(literal.join("/"))
+    };
+    // Paths are matched as the pattern spells them: relative ones without a leading `./`.
+    let relative_start = literal.is_empty();
+    let mut found = Vec::new();
+    let mut visited = 0usize;
+    let mut pending = vec![base];
+    while let Some(dir) = pending.pop() {
+        let entries = match std::fs::read_dir(&dir) {
+            Ok(entries) => entries,
+            Err(e) => {
+                problems.push(Diagnostic::file(
+                    dir.display().to_string(),
+                    format!("cannot read: {}", crate::input::io_reason(&e)),
+                ));
+                continue;
+            }
+        };
+        for entry in entries {
+            visited += 1;
+            if visited > MAX_GLOB_ENTRIES {
+                return Err(format!(
+                    "the pattern visits more than {MAX_GLOB_ENTRIES} directory entries; name a narrower directory"
+                ));
+            }
+            let Ok(entry) = entry else { continue };
+            let path = if relative_start {
+                dir.join(entry.file_name())
+                    .strip_prefix(".")
+                    .map(Path::to_path_buf)
+                    .unwrap_or_else(|_| dir.join(entry.file_name()))
+            } else {
+                dir.join(entry.file_name())
+            };
+            // file_type() does not follow symbolic links: a link is never walked into.
+            let Ok(kind) = entry.file_type() else {
+                continue;
+            };
+            if kind.is_dir() {
+                pending.push(path);
+            } else if matcher.is_match(&path) {
+                found.push(path);
+            }
+        }
+    }
+    Ok(found)
+}
+
 /// Model names identify findings and holdout use, so they must be unique across the check.
 fn duplicate_names(models: &[Model]) -> Vec<Diagnostic> {
     let mut out = Vec::new();
-    for (i, m) in models.iter().enumerate() {
-        if let Some(first) = models[..i].iter().find(|o| o.name == m.name) {
+    // The first model of each name, in one map: a scan of the earlier models per model was
+    // quadratic in the number of models.
+    let mut first_of: std::collections::HashMap<&str, &Model> = std::collections::HashMap::new();
+    for m in models {
+        if let Some(first) = first_of.get(m.name.as_str()).copied().or_else(|| {
+            first_of.insert(&m.name, m);
+            None
+        }) {
             out.push(Diagnostic {
                 file: m.origin.file.clone(),
                 line: m.origin.line,

@@ -289,3 +289,143 @@ fn the_base_report_check_agrees_with_the_jsonschema_crate() {
         );
     }
 }
+
+/// One model scored `looks` times on test split `fingerprint`, as a manifest list item.
+fn model_yaml(name: &str, fingerprint: &str, looks: usize) -> String {
+    let holdout: String = (0..looks)
+        .map(|i| {
+            format!(
+                "      - {{time: 2026-11-01T{:02}:{:02}:{:02}Z, score: 0.5}}\n",
+                i / 3600,
+                (i / 60) % 60,
+                i % 60
+            )
+        })
+        .collect();
+    format!(
+        "  - name: {name}\n    task: binary\n    metric: accuracy\n    \
+         data: {{train_rows: 100, test_rows: 100, test_fingerprint: \"{fingerprint}\"}}\n    \
+         holdout:\n{holdout}    claim: {{value: 0.5, basis: test}}\n"
+    )
+}
+
+/// Writes `files` manifests of `per_file` models each, all on one test split; returns a glob.
+fn many_models(dir: &std::path::Path, files: usize, per_file: usize) -> String {
+    for f in 0..files {
+        let models: String = (0..per_file)
+            .map(|m| model_yaml(&format!("model-{f}-{m}"), "fp-shared", 1))
+            .collect();
+        std::fs::write(
+            dir.join(format!("run-{f}.yaml")),
+            format!("format_version: 1\nmodels:\n{models}"),
+        )
+        .unwrap();
+    }
+    format!("{}/run-*.yaml", dir.display())
+}
+
+#[test]
+fn thousands_of_models_on_one_split_with_thousands_of_waivers_and_overrides_end() {
+    // 3,000 models on one test split (each once sorted the names of all 3,000), judged under
+    // 1,500 overrides and 1,500 waivers (each model was matched against every pattern, one at
+    // a time). Only the end matters: every model blows the budget of 3 looks.
+    let dir = tempfile::tempdir().unwrap();
+    let pattern = many_models(dir.path(), 4, 750);
+    let mut policy = String::from("format_version: 1\noverrides:\n");
+    for i in 0..1500 {
+        policy.push_str(&format!(
+            "  - {{models: [\"model-{}-{}*\"], rules: {{holdout_budget: {{max_evaluations: 3}}}}}}\n",
+            i % 4,
+            i
+        ));
+    }
+    policy.push_str("waivers:\n");
+    for i in 0..1500 {
+        policy.push_str(&format!(
+            "  - {{rule: cv_test_gap, models: \"model-{}-{i}\", reason: \"reviewed\", expires: 2027-01-01}}\n",
+            i % 4
+        ));
+    }
+    let policy_path = dir.path().join("policy.yaml");
+    std::fs::write(&policy_path, policy).unwrap();
+    let json = dir.path().join("report.json");
+    let out = vetscore(&[
+        "check",
+        "--today",
+        "2026-12-01",
+        "--policy",
+        policy_path.to_str().unwrap(),
+        "--json",
+        json.to_str().unwrap(),
+        &pattern,
+    ]);
+    assert_eq!(out.status.code(), Some(1), "{}", stderr(&out));
+    let report: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&json).unwrap()).unwrap();
+    let budget = finding(&report, "holdout_budget");
+    let sharing = budget["evidence"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|e| e["key"] == "models_sharing")
+        .unwrap();
+    assert_eq!(sharing["value"].as_f64(), Some(3000.0));
+}
+
+#[test]
+fn appending_forty_thousand_evaluations_ends() {
+    // 40 models × 1,000 looks: de-duplicating each new entry against those added before it
+    // was quadratic (13 s).
+    let dir = tempfile::tempdir().unwrap();
+    let models: String = (0..40)
+        .map(|m| model_yaml(&format!("m{m}"), &format!("fp-{m}"), 1000))
+        .collect();
+    let manifest = dir.path().join("looks.yaml");
+    std::fs::write(&manifest, format!("format_version: 1\nmodels:\n{models}")).unwrap();
+    let ledger = dir.path().join("ledger.jsonl");
+    let out = vetscore(&[
+        "ledger",
+        "append",
+        "--ledger",
+        ledger.to_str().unwrap(),
+        manifest.to_str().unwrap(),
+    ]);
+    assert_eq!(out.status.code(), Some(0), "{}", stderr(&out));
+    assert!(common::stdout(&out).contains("40000 new entries"));
+}
+
+#[cfg(unix)]
+#[test]
+fn a_glob_through_directory_links_to_itself_ends() {
+    // runs/a -> . and runs/b -> .: a walk that follows links never ends. Links are not
+    // walked into, so the one manifest is found once.
+    let dir = tempfile::tempdir().unwrap();
+    let runs = dir.path().join("runs");
+    std::fs::create_dir(&runs).unwrap();
+    std::os::unix::fs::symlink(".", runs.join("a")).unwrap();
+    std::os::unix::fs::symlink(".", runs.join("b")).unwrap();
+    std::fs::create_dir(runs.join("nested")).unwrap();
+    std::fs::write(
+        runs.join("nested/run.yaml"),
+        format!(
+            "format_version: 1\nmodels:\n{}",
+            model_yaml("only", "fp", 1)
+        ),
+    )
+    .unwrap();
+    let json = dir.path().join("report.json");
+    let pattern = format!("{}/runs/**/*.yaml", dir.path().display());
+    let out = vetscore(&[
+        "check",
+        "--today",
+        "2026-12-01",
+        "--json",
+        json.to_str().unwrap(),
+        &pattern,
+    ]);
+    // Checked (exit 0 or 1: the claim has no search to back it), not refused.
+    assert!(matches!(out.status.code(), Some(0 | 1)), "{}", stderr(&out));
+    let report: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&json).unwrap()).unwrap();
+    assert_eq!(report["models"].as_array().unwrap().len(), 1);
+}

@@ -173,14 +173,23 @@ pub struct FindingRef {
 
 /// Compares this run's models with the base report.
 pub fn compare(base: &BaseReport, models: &[ModelView]) -> SinceBase {
-    let find = |name: &str| base.models.iter().find(|m| m.name == name);
+    // Indexes by name, so the comparison is n log n in the number of models.
+    let by_name: std::collections::BTreeMap<&str, &BaseModel> = base
+        .models
+        .iter()
+        .rev()
+        .map(|m| (m.name.as_str(), m))
+        .collect();
+    let current: std::collections::BTreeSet<&str> =
+        models.iter().map(|m| m.name.as_str()).collect();
+    let find = |name: &str| by_name.get(name).copied();
     let mut since = SinceBase {
         base_verdict: base.verdict.clone(),
         added: Vec::new(),
         removed: base
             .models
             .iter()
-            .filter(|b| !models.iter().any(|m| m.name == b.name))
+            .filter(|b| !current.contains(b.name.as_str()))
             .map(|b| b.name.clone())
             .collect(),
         moved: Vec::new(),
