@@ -138,6 +138,72 @@ pub fn markdown(data: &[u8]) {
     assert_inert(&body, 2);
 }
 
+/// Arbitrary text as a ledger: a rejection names a line within the text (or one past it); an
+/// accepted ledger's head is well formed, every prefix's head is extended by the whole ledger,
+/// and writing its entries out again reads back the same entries. A `COUNT:HASH` head parsed
+/// from the first line prints back as it was read.
+pub fn ledger(data: &[u8]) {
+    let Ok(text) = std::str::from_utf8(data) else {
+        return;
+    };
+    if let Some(first) = text.lines().next()
+        && let Ok(head) = vetscore::ledger::Head::parse(first)
+    {
+        assert_eq!(head.to_string(), first);
+    }
+    match vetscore::ledger::verify(text) {
+        Ok(entries) => {
+            let head = vetscore::ledger::Head::of(&entries);
+            head.check().unwrap();
+            for k in [0, entries.len() / 2, entries.len()] {
+                let prefix = vetscore::ledger::Head::of(&entries[..k]);
+                vetscore::ledger::extends(&entries, &prefix).unwrap();
+            }
+            if let Some(last) = entries.len().checked_sub(1) {
+                // A head one entry beyond the ledger is never extended.
+                let beyond = vetscore::ledger::Head {
+                    entries: head.entries + 1,
+                    last_hash: entries[last].hash.clone(),
+                };
+                assert!(vetscore::ledger::extends(&entries[..last], &head).is_err());
+                assert!(vetscore::ledger::extends(&entries, &beyond).is_err());
+            }
+            let again: String = entries.iter().map(vetscore::ledger::line).collect();
+            assert_eq!(vetscore::ledger::verify(&again).unwrap(), entries);
+        }
+        Err(broken) => {
+            assert!(broken.line <= text.lines().count() as u64 + 1, "{broken:?}");
+            assert!(!broken.message.is_empty());
+        }
+    }
+}
+
+/// Arbitrary text as a `--baseline` report: a rejection says why; an accepted one is compared
+/// with two fixed models and rendered, and whatever it carried stays inert in the Markdown.
+pub fn base_report(data: &[u8]) {
+    let Ok(text) = std::str::from_utf8(data) else {
+        return;
+    };
+    let base = match vetscore::report::since::BaseReport::parse(text) {
+        Ok(base) => base,
+        Err(message) => {
+            assert!(!message.is_empty());
+            return;
+        }
+    };
+    let policy = Policy::defaults();
+    let models = vec![model("ripeness-a", None), model("ripeness-b", None)];
+    let assessment = vetscore::evaluate::evaluate(models, &[], &policy, None, None, today());
+    let mut view = view::build(&assessment, &policy, None);
+    view.since_base = Some(vetscore::report::since::compare(&base, &view.models));
+    vetscore::report::json(&view).unwrap();
+    let body = Templates::built_in()
+        .render(templates::MARKDOWN, &view)
+        .unwrap();
+    // Headings: the title, one per model and the "since the base branch" section.
+    assert_inert(&body, 3);
+}
+
 /// A valid accuracy model with CV and test evidence.
 pub fn model(name: &str, claim_text: Option<String>) -> Model {
     let fold = |correct: u64| manifest::Fold {

@@ -194,13 +194,35 @@ fn report_problems(problems: &[Diagnostic], what: &str) -> Exit {
 
 fn ledger(action: LedgerAction) -> Result<Exit> {
     match action {
-        LedgerAction::Verify { ledger } => match crate::ledger::store::read(&ledger, false) {
+        LedgerAction::Verify {
+            ledger,
+            ledger_head,
+        } => {
+            let heads: Vec<(&str, &crate::ledger::Head)> =
+                ledger_head.iter().map(|h| ("--ledger-head", h)).collect();
+            let read = crate::ledger::store::read_anchored(&ledger, false, &heads);
+            match read {
+                Ok(crate::ledger::store::Loaded { entries, .. }) => {
+                    let head = crate::ledger::Head::of(&entries);
+                    let anchored = match &ledger_head {
+                        Some(h) => format!("; extends the trusted head {h}"),
+                        None => "; no trusted head given, so entries cut off the end or a \
+                                 rewritten chain would not show"
+                            .to_owned(),
+                    };
+                    outln!(
+                        "{}: {} entries, hash chain intact{anchored}; head {head}",
+                        ledger.display(),
+                        entries.len()
+                    );
+                    Ok(Exit::Supported)
+                }
+                Err(d) => Ok(report_problems(&[d], "the ledger cannot be trusted")),
+            }
+        }
+        LedgerAction::Head { ledger } => match crate::ledger::store::read(&ledger, true) {
             Ok(entries) => {
-                outln!(
-                    "{}: {} entries, hash chain intact",
-                    ledger.display(),
-                    entries.len()
-                );
+                outln!("{}", crate::ledger::Head::of(&entries));
                 Ok(Exit::Supported)
             }
             Err(d) => Ok(report_problems(&[d], "the ledger cannot be trusted")),
@@ -234,6 +256,28 @@ fn load_models(
     problems: &mut Vec<Diagnostic>,
 ) -> Vec<Model> {
     let root = root.map_or_else(|| PathBuf::from("."), Path::to_path_buf);
+    // Confinement needs a real directory; a missing one is an input error, never "no limit".
+    match root.canonicalize() {
+        Ok(real) if real.is_dir() => {}
+        Ok(_) => {
+            problems.push(Diagnostic::file(
+                "--root",
+                format!("{} is not a directory", root.display()),
+            ));
+            return Vec::new();
+        }
+        Err(e) => {
+            problems.push(Diagnostic::file(
+                "--root",
+                format!(
+                    "the root directory {} cannot be resolved: {}",
+                    root.display(),
+                    crate::input::io_reason(&e)
+                ),
+            ));
+            return Vec::new();
+        }
+    }
     let mut models: Vec<Model> = Vec::new();
     for path in expand(patterns, problems) {
         match manifest::load(&path, &root) {
@@ -299,12 +343,6 @@ fn check(args: &CheckArgs) -> Result<Exit> {
         .as_ref()
         .and_then(|path| Policy::load(path).map_err(|d| problems.extend(d)).ok());
     let models = load_models(&args.manifests, args.root.as_deref(), &mut problems);
-    let ledger = match &args.ledger {
-        Some(path) => crate::ledger::store::read(path, false)
-            .map_err(|d| problems.push(d))
-            .unwrap_or_default(),
-        None => Vec::new(),
-    };
     let base_report = args.baseline.as_ref().and_then(|path| {
         crate::input::read_text(path)
             .and_then(|text| {
@@ -313,6 +351,17 @@ fn check(args: &CheckArgs) -> Result<Exit> {
             })
             .map_err(|d| problems.push(d))
             .ok()
+    });
+    let base_head = base_report
+        .as_ref()
+        .and_then(report::since::BaseReport::ledger_head);
+    let ledger = args.ledger.as_ref().and_then(|path| {
+        read_ledger(
+            path,
+            args.ledger_head.as_ref(),
+            base_head.as_ref(),
+            &mut problems,
+        )
     });
     let (Some(policy), Some(today), true) = (policy, today, problems.is_empty()) else {
         return Ok(report_problems(&problems, "nothing was checked"));
@@ -323,7 +372,7 @@ fn check(args: &CheckArgs) -> Result<Exit> {
         .map(report::since::BaseReport::test_splits);
     let assessment = evaluate::evaluate(
         models,
-        &ledger,
+        ledger.as_ref().map_or(&[][..], |(l, _)| &l.entries),
         &policy,
         base_policy.as_ref(),
         base_splits.as_ref(),
@@ -333,6 +382,7 @@ fn check(args: &CheckArgs) -> Result<Exit> {
     view.since_base = base_report
         .as_ref()
         .map(|base| report::since::compare(base, &view.models));
+    view.ledger_head = ledger.map(|(_, v)| v);
     let templates = match &args.templates {
         Some(dir) => Templates::with_overrides(dir)?,
         None => Templates::built_in(),
@@ -375,6 +425,51 @@ fn check(args: &CheckArgs) -> Result<Exit> {
     })
 }
 
+/// Reads the `--ledger` of a check and verifies it extends the trusted heads given; returns it
+/// with its view for the report, or records the problem.
+fn read_ledger(
+    path: &Path,
+    flag: Option<&crate::ledger::Head>,
+    baseline: Option<&crate::ledger::Head>,
+    problems: &mut Vec<Diagnostic>,
+) -> Option<(crate::ledger::store::Loaded, view::LedgerView)> {
+    let heads: Vec<(&'static str, &crate::ledger::Head)> =
+        [("--ledger-head", flag), ("baseline", baseline)]
+            .into_iter()
+            .filter_map(|(source, head)| head.map(|h| (source, h)))
+            .collect();
+    let named: Vec<(&str, &crate::ledger::Head)> = heads
+        .iter()
+        .map(|&(source, h)| {
+            let source = if source == "baseline" {
+                "the ledger_head of the --baseline report"
+            } else {
+                source
+            };
+            (source, h)
+        })
+        .collect();
+    let loaded = crate::ledger::store::read_anchored(path, true, &named)
+        .map_err(|d| problems.push(d))
+        .ok()?;
+    let head = crate::ledger::Head::of(&loaded.entries);
+    let view = view::LedgerView {
+        file: path.display().to_string(),
+        entries: head.entries,
+        last_hash: head.last_hash,
+        file_missing: loaded.missing,
+        extends: heads
+            .iter()
+            .map(|&(source, h)| view::LedgerAnchor {
+                source,
+                entries: h.entries,
+                last_hash: h.last_hash.clone(),
+            })
+            .collect(),
+    };
+    Some((loaded, view))
+}
+
 /// Expands glob patterns; a pattern that matches nothing is an input problem.
 fn expand(patterns: &[String], problems: &mut Vec<Diagnostic>) -> Vec<PathBuf> {
     let mut paths = Vec::new();
@@ -383,26 +478,14 @@ fn expand(patterns: &[String], problems: &mut Vec<Diagnostic>) -> Vec<PathBuf> {
             paths.push(PathBuf::from(pattern));
             continue;
         }
-        match glob::glob(pattern) {
-            Ok(entries) => {
-                let before = paths.len();
-                for entry in entries {
-                    match entry {
-                        Ok(path) => paths.push(path),
-                        Err(e) => problems.push(Diagnostic::file(
-                            e.path().display().to_string(),
-                            format!("cannot read: {}", e.error()),
-                        )),
-                    }
-                }
-                if paths.len() == before {
+        match walk_glob(pattern, problems) {
+            Ok(found) => {
+                if found.is_empty() {
                     problems.push(Diagnostic::file(pattern, "pattern matched no file"));
                 }
+                paths.extend(found);
             }
-            Err(e) => problems.push(Diagnostic::file(
-                pattern,
-                format!("invalid glob pattern: {}", e.msg),
-            )),
+            Err(message) => problems.push(Diagnostic::file(pattern, message)),
         }
     }
     paths.sort();
@@ -410,11 +493,88 @@ fn expand(patterns: &[String], problems: &mut Vec<Diagnostic>) -> Vec<PathBuf> {
     paths
 }
 
+/// Most directory entries one glob pattern may visit: a bound on the walk whatever the tree.
+const MAX_GLOB_ENTRIES: usize = 1_000_000;
+
+/// The files matching a glob pattern (`*` and `?` within one path component, `**` across
+/// directories, `[...]` classes). The walk starts at the pattern's literal leading directories,
+/// never descends into a directory reached through a symbolic link (a `dir -> .` link made the
+/// old walk endless), and stops with an error after [`MAX_GLOB_ENTRIES`] entries. Directories
+/// that cannot be read are problems; other entries that are not files are skipped.
+fn walk_glob(pattern: &str, problems: &mut Vec<Diagnostic>) -> Result<Vec<PathBuf>, String> {
+    let matcher = globset::GlobBuilder::new(pattern)
+        .literal_separator(true)
+        .build()
+        .map_err(|e| format!("invalid glob pattern: {}", e.kind()))?
+        .compile_matcher();
+    let literal: Vec<&str> = pattern
+        .split('/')
+        .take_while(|c| !c.contains(['*', '?', '[', '{']))
+        .collect();
+    let base = if literal.is_empty() {
+        PathBuf::from(".")
+    } else if literal == [""] {
+        PathBuf::from("/")
+    } else {
+        PathBuf::from(literal.join("/"))
+    };
+    // Paths are matched as the pattern spells them: relative ones without a leading `./`.
+    let relative_start = literal.is_empty();
+    let mut found = Vec::new();
+    let mut visited = 0usize;
+    let mut pending = vec![base];
+    while let Some(dir) = pending.pop() {
+        let entries = match std::fs::read_dir(&dir) {
+            Ok(entries) => entries,
+            Err(e) => {
+                problems.push(Diagnostic::file(
+                    dir.display().to_string(),
+                    format!("cannot read: {}", crate::input::io_reason(&e)),
+                ));
+                continue;
+            }
+        };
+        for entry in entries {
+            visited += 1;
+            if visited > MAX_GLOB_ENTRIES {
+                return Err(format!(
+                    "the pattern visits more than {MAX_GLOB_ENTRIES} directory entries; name a narrower directory"
+                ));
+            }
+            let Ok(entry) = entry else { continue };
+            let path = if relative_start {
+                dir.join(entry.file_name())
+                    .strip_prefix(".")
+                    .map(Path::to_path_buf)
+                    .unwrap_or_else(|_| dir.join(entry.file_name()))
+            } else {
+                dir.join(entry.file_name())
+            };
+            // file_type() does not follow symbolic links: a link is never walked into.
+            let Ok(kind) = entry.file_type() else {
+                continue;
+            };
+            if kind.is_dir() {
+                pending.push(path);
+            } else if matcher.is_match(&path) {
+                found.push(path);
+            }
+        }
+    }
+    Ok(found)
+}
+
 /// Model names identify findings and holdout use, so they must be unique across the check.
 fn duplicate_names(models: &[Model]) -> Vec<Diagnostic> {
     let mut out = Vec::new();
-    for (i, m) in models.iter().enumerate() {
-        if let Some(first) = models[..i].iter().find(|o| o.name == m.name) {
+    // The first model of each name, in one map: a scan of the earlier models per model was
+    // quadratic in the number of models.
+    let mut first_of: std::collections::HashMap<&str, &Model> = std::collections::HashMap::new();
+    for m in models {
+        if let Some(first) = first_of.get(m.name.as_str()).copied().or_else(|| {
+            first_of.insert(&m.name, m);
+            None
+        }) {
             out.push(Diagnostic {
                 file: m.origin.file.clone(),
                 line: m.origin.line,

@@ -20,7 +20,7 @@ pub struct Cli {
 #[derive(Debug, Subcommand)]
 pub enum Command {
     /// Check results manifests against a policy and write the reports.
-    Check(CheckArgs),
+    Check(Box<CheckArgs>),
     /// Explain a rule: what it checks, how, and the published source of its method.
     Explain {
         /// Rule id, e.g. `holdout_budget`; without it, list every rule.
@@ -70,8 +70,23 @@ pub enum LedgerAction {
         #[arg(long, value_name = "DIR")]
         root: Option<PathBuf>,
     },
-    /// Check that no entry was changed, removed or reordered; name the first broken entry.
+    /// Check the hash chain and name the first broken entry. With --ledger-head: no entry up to
+    /// that head was changed, removed or reordered, and none was cut off. Without it, only that
+    /// the chain is whole: a ledger cut short at the end, or rewritten with its chain
+    /// recomputed, is still a whole chain.
     Verify {
+        /// The ledger file.
+        #[arg(long, value_name = "FILE", default_value = DEFAULT_LEDGER)]
+        ledger: PathBuf,
+        /// The trusted head the ledger must extend, as COUNT:HASH (what `vetscore ledger head`
+        /// prints for the base branch's ledger).
+        #[arg(long, value_name = "COUNT:HASH", value_parser = crate::ledger::Head::parse)]
+        ledger_head: Option<crate::ledger::Head>,
+    },
+    /// Print the ledger's head as COUNT:HASH (entry count and last hash) after verifying its
+    /// chain; a missing ledger file is an empty ledger. Run it on the base branch's ledger and
+    /// pass the value to `check --ledger-head`.
+    Head {
         /// The ledger file.
         #[arg(long, value_name = "FILE", default_value = DEFAULT_LEDGER)]
         ledger: PathBuf,
@@ -145,9 +160,16 @@ pub struct CheckArgs {
     #[arg(long, value_name = "FILE")]
     pub base_policy: Option<PathBuf>,
 
-    /// Count the holdout evaluations recorded in this ledger toward the holdout budget.
+    /// Count the holdout evaluations recorded in this ledger toward the holdout budget. A
+    /// missing file is an empty ledger (the report says so). The ledger must extend the trusted
+    /// head: --ledger-head, and the `ledger_head` of the --baseline report.
     #[arg(long, value_name = "FILE")]
     pub ledger: Option<PathBuf>,
+
+    /// The trusted head of the base branch's ledger, as COUNT:HASH (from `vetscore ledger
+    /// head`): the ledger read must keep those entries unchanged, or the check is invalid input.
+    #[arg(long, value_name = "COUNT:HASH", value_parser = crate::ledger::Head::parse, requires = "ledger")]
+    pub ledger_head: Option<crate::ledger::Head>,
 
     /// Directory the files named in manifests (trials, predictions, id lists) must lie in;
     /// default: the working directory. Keeps a manifest from reading files elsewhere.

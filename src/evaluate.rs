@@ -62,11 +62,20 @@ pub fn evaluate(
                 file: format!("ledger entry {}", entry.seq),
             });
     }
+    let models_sharing = holdout_uses
+        .iter()
+        .map(|(fingerprint, uses)| {
+            let names: std::collections::HashSet<&str> =
+                uses.iter().map(|u| u.model.as_str()).collect();
+            (fingerprint.clone(), names.len() as u64)
+        })
+        .collect();
     let names: Vec<&str> = models.iter().map(|m| m.name.as_str()).collect();
     let notes = policy.unmatched_entries(&names);
     let mut context = Context {
         intervals: policy.intervals(),
         holdout_uses,
+        models_sharing,
         today,
         waivers: Vec::new(),
         inconclusive_fails: policy.inconclusive == Inconclusive::Fail,

@@ -32,7 +32,7 @@ fn demo_fails_the_unsupported_models_and_reports_key_numbers() {
     let output = demo_with(&["--json", json.to_str().unwrap()]);
     assert_eq!(output.status.code(), Some(1), "{}", stderr(&output));
     let report = Report::read(&json);
-    assert_eq!(report.report_version, 1);
+    assert_eq!(report.report_version, 2);
     assert_eq!(report.verdict, "not_supported");
     assert_eq!(report.counts.models, 5);
     let verdict = |name: &str| report.model(name).verdict.clone();

@@ -37,11 +37,15 @@ type Target = (&'static str, fn(&[u8]));
 
 #[test]
 fn every_kept_crash_input_replays_cleanly() {
-    let targets: [Target; 4] = [
+    let targets: [Target; 6] = [
         ("manifest", harness::manifest),
         ("policy", harness::policy),
         ("trials", harness::trials),
         ("markdown", harness::markdown),
+        // Seeds rather than crashes: a real ledger and one cut mid-entry, a real base report
+        // and one with markup in its verdicts, so the harness itself is exercised here.
+        ("ledger", harness::ledger),
+        ("base_report", harness::base_report),
     ];
     let replayed: usize = targets.iter().map(|(t, run)| replay(t, *run)).sum();
     // The two u64-overflow manifests (fixed in validate.rs) are kept at least.

@@ -7,8 +7,10 @@
 //! and MAE, a Student-t interval over per-row losses; RMSE, the square root of a t interval on
 //! the mean squared error; balanced accuracy and F1, a seeded bootstrap that resamples the
 //! confusion-matrix counts; R², a seeded row bootstrap. Resample count and seed come from the
-//! policy, so a result is reproducible; the row bootstrap lowers its count for very large files
-//! ([`row_bootstrap_resamples`]) and the interval's method records the count used.
+//! policy, so a result is reproducible; every bootstrap lowers its count when a resample is
+//! costly (many rows, or many classes), refuses when even the
+//! fewest resamples would not finish in seconds, and records the count it used
+//! ([`affordable_resamples`]).
 
 use serde::Serialize;
 
@@ -48,16 +50,34 @@ pub struct Recomputed {
     pub correct: Option<u64>,
 }
 
-/// Row-bootstrap work is capped at this many row draws (about two seconds at ~10 ns a draw):
-/// above it the resample count is lowered, never below 100, and the report states the count used.
-const ROW_BOOTSTRAP_DRAWS: u64 = 200_000_000;
+/// Bootstrap work per interval is capped at this many draws (cells of the resampled table, or
+/// rows), about half a second at ~10 ns a draw (measured: 4,096 classes × 2,000 resamples,
+/// 3.4e10 cell draws, took 423 s, 12 ns each), so a check of many models stays fast: above it the
+/// resample count is lowered and the report states the count used.
+const BOOTSTRAP_DRAWS: u64 = 50_000_000;
 
-/// The resamples a row bootstrap of `rows` rows uses: the policy's, or fewer for large files.
-pub fn row_bootstrap_resamples(wanted: u32, rows: u64) -> u32 {
-    let affordable = ROW_BOOTSTRAP_DRAWS / rows.max(1);
-    wanted
-        .min(u32::try_from(affordable).unwrap_or(u32::MAX))
-        .max(100)
+/// Fewest resamples an interval is given (below 100 a 95% interval's tails rest on two or three
+/// draws; common practice, no source, as `stats::bootstrap`'s own minimum).
+const MIN_RESAMPLES: u32 = 100;
+
+/// Most draws a bootstrap may take at its fewest resamples (about ten seconds); past that it
+/// is refused rather than run.
+const BOOTSTRAP_DRAWS_MOST: u64 = 1_000_000_000;
+
+/// The resamples a bootstrap costing `draws` per resample uses: the policy's `wanted`, or as
+/// many as fit [`BOOTSTRAP_DRAWS`] but at least 100; `Err` when even 100 would pass
+/// [`BOOTSTRAP_DRAWS_MOST`]. `what` names the bootstrap for the message. Every resampling
+/// method goes through here, so total work is bounded whatever the rows, classes or policy.
+pub fn affordable_resamples(wanted: u32, draws: u64, what: &str) -> Result<u32, String> {
+    let draws = draws.max(1);
+    if draws.saturating_mul(u64::from(MIN_RESAMPLES)) > BOOTSTRAP_DRAWS_MOST {
+        return Err(format!(
+            "{what} would take {draws} draws per resample, and even {MIN_RESAMPLES} resamples \
+             pass the limit of {BOOTSTRAP_DRAWS_MOST} draws"
+        ));
+    }
+    let affordable = u32::try_from(BOOTSTRAP_DRAWS / draws).unwrap_or(u32::MAX);
+    Ok(wanted.min(affordable).max(MIN_RESAMPLES))
 }
 
 fn f1_average(mode: F1Mode, positive: Option<u32>) -> Result<F1Average, String> {
@@ -138,10 +158,6 @@ fn recompute_unclipped(
 ) -> Result<Recomputed, String> {
     let rows = set.rows() as u64;
     let err = |e: stats::StatsError| e.to_string();
-    let bootstrap = Method::Bootstrap {
-        resamples: s.resamples,
-        seed: s.seed,
-    };
     match metric {
         Metric::Accuracy => {
             let m = confusion(set)?;
@@ -160,6 +176,12 @@ fn recompute_unclipped(
         Metric::BalancedAccuracy | Metric::F1 => {
             let m = confusion(set)?;
             let average = f1_average(f1, set.positive)?;
+            let k = m.classes() as u64;
+            let resamples = affordable_resamples(
+                s.resamples,
+                k * k,
+                &format!("the bootstrap of a {k}-class confusion matrix"),
+            )?;
             let statistic = |c: &ConfusionMatrix| {
                 if metric == Metric::F1 {
                     c.f1(average)
@@ -172,12 +194,15 @@ fn recompute_unclipped(
                 interval: stats::bootstrap_confusion(
                     &m,
                     statistic,
-                    s.resamples,
+                    resamples,
                     s.confidence,
                     s.seed,
                 )
                 .map_err(err)?,
-                method: bootstrap,
+                method: Method::Bootstrap {
+                    resamples,
+                    seed: s.seed,
+                },
                 rows,
                 correct: None,
             })
@@ -244,7 +269,11 @@ fn recompute_unclipped(
                         .copied()
                         .zip(prediction.iter().copied())
                         .collect();
-                    let resamples = row_bootstrap_resamples(s.resamples, rows);
+                    let resamples = affordable_resamples(
+                        s.resamples,
+                        rows,
+                        &format!("the row bootstrap of {rows} rows"),
+                    )?;
                     (
                         errors.r2().map_err(err)?,
                         stats::bootstrap_rows(
@@ -294,7 +323,8 @@ pub struct Comparison {
     /// The sign-flip bound: the exact sign-flip p-value on at most 16 per-row (or per-fold)
     /// differences, else 2/2^m for the m rows on which the two models differ.
     pub p_floor: f64,
-    pub test: &'static str,
+    /// The test used; a bootstrap names the resamples it used.
+    pub test: String,
     /// Whether the test found no spread in the differences (every difference the same, up to
     /// float rounding: [`stats::no_spread`] of its interval), so it measured no uncertainty.
     pub no_spread: bool,
@@ -325,7 +355,7 @@ pub fn compare(
         p_value: 1.0,
         test_p_value: 1.0,
         p_floor: 1.0,
-        test: "",
+        test: String::new(),
         no_spread: false,
         discordant: None,
     };
@@ -387,7 +417,8 @@ pub fn compare(
                         "McNemar, exact binomial"
                     } else {
                         "McNemar, chi-square with continuity correction"
-                    };
+                    }
+                    .into();
                     comparison.discordant = Some((b, c));
                 }
                 Metric::RocAuc => {
@@ -410,7 +441,7 @@ pub fn compare(
                     comparison.interval = paired.interval;
                     let differing = xa.iter().zip(&xb).filter(|(a, b)| a != b).count();
                     comparison.set_p(paired.p_value, None, differing as u64)?;
-                    comparison.test = "DeLong, paired";
+                    comparison.test = "DeLong, paired".into();
                 }
                 Metric::LogLoss => {
                     let (
@@ -469,11 +500,16 @@ pub fn compare(
                             c.balanced_accuracy()
                         }
                     };
+                    let resamples = affordable_resamples(
+                        settings.resamples,
+                        (k * k * k) as u64,
+                        &format!("the paired bootstrap of {k} classes"),
+                    )?;
                     let r = stats::bootstrap_paired_confusion(
                         k,
                         &joint,
                         statistic,
-                        settings.resamples,
+                        resamples,
                         confidence,
                         settings.seed,
                     )
@@ -481,7 +517,9 @@ pub fn compare(
                     comparison.improvement = r.difference;
                     comparison.interval = r.interval;
                     comparison.set_p(r.p_value, None, differing)?;
-                    comparison.test = "paired bootstrap of the joint confusion table";
+                    comparison.test = format!(
+                        "paired bootstrap of the joint confusion table, {resamples} resamples"
+                    );
                 }
                 other => {
                     return Err(format!(
@@ -532,7 +570,8 @@ pub fn compare(
                     comparison.improvement = e.difference;
                     comparison.interval = e.interval;
                     comparison.test =
-                        "paired t on per-row squared errors; RMSE difference by the delta method";
+                        "paired t on per-row squared errors; RMSE difference by the delta method"
+                            .into();
                 } else {
                     let scale = d.r2_per_squared_error().map_err(err)?;
                     comparison.improvement = squared.mean * scale;
@@ -540,7 +579,7 @@ pub fn compare(
                         lower: squared.interval.lower * scale,
                         upper: squared.interval.upper * scale,
                     };
-                    comparison.test = "paired t on per-row squared errors, in R² units";
+                    comparison.test = "paired t on per-row squared errors, in R² units".into();
                 }
             }
         }
@@ -606,7 +645,7 @@ impl Comparison {
         self.improvement = losses.t.mean;
         self.interval = losses.t.interval;
         self.no_spread = stats::no_spread(losses.t.interval);
-        self.test = "paired t on per-row losses";
+        self.test = "paired t on per-row losses".into();
         self.set_p(
             losses.t.p_value,
             losses.small.as_deref(),
@@ -620,11 +659,25 @@ mod tests {
     use super::*;
 
     #[test]
-    fn row_bootstrap_lowers_its_count_for_large_files_only() {
-        // 2e8 draws: 2000 resamples fit up to 100,000 rows; 1e6 rows afford 200; 1e7 rows get the
-        // floor of 100 (arithmetic on the documented cap).
-        assert_eq!(row_bootstrap_resamples(2000, 100_000), 2000);
-        assert_eq!(row_bootstrap_resamples(2000, 1_000_000), 200);
-        assert_eq!(row_bootstrap_resamples(2000, 10_000_000), 100);
+    fn bootstrap_work_is_bounded_whatever_the_rows_or_classes() {
+        // Arithmetic on the documented caps (5e7 draws lowered to, 1e9 at 100 resamples most).
+        // Rows: 2000 resamples fit up to 25,000 rows; 1e5 rows afford 500; 1e6 and 1e7 rows the
+        // floor of 100; 2e7 rows are refused.
+        assert_eq!(affordable_resamples(2000, 25_000, "r"), Ok(2000));
+        assert_eq!(affordable_resamples(2000, 100_000, "r"), Ok(500));
+        assert_eq!(affordable_resamples(2000, 1_000_000, "r"), Ok(100));
+        assert_eq!(affordable_resamples(2000, 10_000_000, "r"), Ok(100));
+        assert!(affordable_resamples(2000, 20_000_000, "r").is_err());
+        // Classes: a 256-class matrix (65,536 cells) with the policy's largest count, 1e6
+        // resamples, gets 5e7 / 65,536 = 762; 4,096 classes (16.8 M cells) is refused.
+        assert_eq!(affordable_resamples(1_000_000, 256 * 256, "c"), Ok(762));
+        let refused = affordable_resamples(2000, 4096 * 4096, "the bootstrap of 4096 classes");
+        assert!(
+            refused
+                .unwrap_err()
+                .starts_with("the bootstrap of 4096 classes would take 16777216")
+        );
+        // The paired bootstrap of 64 classes (262,144 cells) keeps 190 resamples.
+        assert_eq!(affordable_resamples(2000, 64 * 64 * 64, "p"), Ok(190));
     }
 }

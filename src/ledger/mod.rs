@@ -7,6 +7,13 @@
 //! records, so appending the same manifest twice adds nothing. The holdout-budget rule counts
 //! ledger entries together with the evaluations in the manifests being checked.
 //!
+//! A chain cannot see its own end cut off, nor a ledger rewritten from scratch with its chain
+//! recomputed: both are valid chains. So a check is given a [`Head`] it can trust — the entry
+//! count and last hash of the ledger on the base branch, from the base branch's JSON report or a
+//! `--ledger-head` value — and [`extends`] fails unless the ledger read starts with exactly the
+//! entries that head ends. Entries up to the head are then known to be unchanged (each hash
+//! covers the previous one), and entries after it are new.
+//!
 //! This module is pure (text in, entries and lines out); [`store`] does the file work.
 
 pub mod store;
@@ -90,6 +97,113 @@ pub struct Broken {
     pub message: String,
 }
 
+/// Where a ledger ends: its entry count and the hash of its last entry ([`GENESIS`] when empty).
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize, schemars::JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct Head {
+    pub entries: u64,
+    pub last_hash: String,
+}
+
+impl Head {
+    /// The head of a ledger with these entries.
+    pub fn of(entries: &[Entry]) -> Head {
+        Head {
+            entries: entries.len() as u64,
+            last_hash: entries
+                .last()
+                .map_or(GENESIS, |e| e.hash.as_str())
+                .to_owned(),
+        }
+    }
+
+    /// Parses `COUNT:HASH`, e.g. `3:sha256:9f…` (the form [`fmt::Display`] writes); an empty
+    /// ledger's head is `0:` followed by [`GENESIS`].
+    ///
+    /// [`fmt::Display`]: std::fmt::Display
+    pub fn parse(text: &str) -> Result<Head, String> {
+        let (count, hash) = text
+            .split_once(':')
+            .ok_or_else(|| format!("expected COUNT:HASH, found {text:?}"))?;
+        let entries: u64 = count.parse().map_err(|_| {
+            format!("expected an entry count before the first `:`, found {count:?}")
+        })?;
+        let head = Head {
+            entries,
+            last_hash: hash.to_owned(),
+        };
+        head.check()?;
+        Ok(head)
+    }
+
+    /// Whether the hash is well formed and fits the count (an empty ledger ends at [`GENESIS`]).
+    pub fn check(&self) -> Result<(), String> {
+        let hex = self.last_hash.strip_prefix("sha256:").unwrap_or("");
+        if hex.len() != 64
+            || !hex
+                .bytes()
+                .all(|b| b.is_ascii_digit() || (b'a'..=b'f').contains(&b))
+        {
+            return Err(format!(
+                "expected a hash of the form sha256:<64 lowercase hex digits>, found {:?}",
+                self.last_hash
+            ));
+        }
+        if (self.entries == 0) != (self.last_hash == GENESIS) {
+            return Err(if self.entries == 0 {
+                format!("an empty ledger's head ends at {GENESIS}")
+            } else {
+                format!(
+                    "{GENESIS} is the head of an empty ledger, not of {} entries",
+                    self.entries
+                )
+            });
+        }
+        Ok(())
+    }
+}
+
+impl std::fmt::Display for Head {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "{}:{}", self.entries, self.last_hash)
+    }
+}
+
+/// Checks that verified `entries` extend `head`: at least as many entries, and the entry at the
+/// head's position has the head's hash. As every hash covers the one before, the entries up to
+/// the head are then exactly the ones the head was taken from.
+pub fn extends(entries: &[Entry], head: &Head) -> Result<(), Broken> {
+    let have = entries.len() as u64;
+    if have < head.entries {
+        return Err(Broken {
+            line: have,
+            message: format!(
+                "the ledger has {have} entr{} but the trusted head has {}: entries were cut off or \
+                 the ledger was emptied or replaced",
+                if have == 1 { "y" } else { "ies" },
+                head.entries
+            ),
+        });
+    }
+    let at = head.entries as usize;
+    let hash = if at == 0 {
+        GENESIS
+    } else {
+        entries[at - 1].hash.as_str()
+    };
+    if hash != head.last_hash {
+        return Err(Broken {
+            line: head.entries,
+            message: format!(
+                "entry {} is not the entry the trusted head ends with ({}): the ledger was \
+                 rewritten up to there, its chain recomputed",
+                head.entries, head.last_hash
+            ),
+        });
+    }
+    Ok(())
+}
+
 /// Parses and checks a ledger's text; returns its entries, or the first place the chain breaks.
 pub fn verify(text: &str) -> Result<Vec<Entry>, Broken> {
     let mut entries: Vec<Entry> = Vec::new();
@@ -161,14 +275,17 @@ pub fn evaluation_key(model: &Model, index: usize) -> String {
 
 /// The entries to append for the evaluations in `models` not yet in the ledger, chained onto it.
 pub fn new_entries(ledger: &[Entry], models: &[Model]) -> Vec<Entry> {
-    let known: std::collections::HashSet<&str> = ledger.iter().map(|e| e.key.as_str()).collect();
+    // Keys seen so far, the ledger's and the new entries': one set, so each evaluation costs
+    // one lookup however many there are.
+    let mut known: std::collections::HashSet<String> =
+        ledger.iter().map(|e| e.key.clone()).collect();
     let mut out: Vec<Entry> = Vec::new();
     let mut prev = ledger.last().map_or(GENESIS.to_owned(), |e| e.hash.clone());
     let mut seq = ledger.len() as u64;
     for model in models {
         for (i, evaluation) in model.holdout.iter().enumerate() {
             let key = evaluation_key(model, i);
-            if known.contains(key.as_str()) || out.iter().any(|e| e.key == key) {
+            if !known.insert(key.clone()) {
                 continue;
             }
             seq += 1;

@@ -193,8 +193,25 @@ impl Validator<'_> {
             .parent()
             .unwrap_or(Path::new("."))
             .join(name);
-        match (path.canonicalize(), self.root.canonicalize()) {
-            (Ok(real), Ok(root)) if !real.starts_with(&root) => {
+        // A root that cannot be resolved confines nothing: refuse rather than allow any path.
+        let root = match self.root.canonicalize() {
+            Ok(root) => root,
+            Err(e) => {
+                self.out.push(Diagnostic::at(
+                    self.file,
+                    place,
+                    key,
+                    format!(
+                        "the check's root directory {} cannot be resolved ({}), so {name:?} cannot be confined to it",
+                        self.root.display(),
+                        crate::input::io_reason(&e)
+                    ),
+                ));
+                return None;
+            }
+        };
+        match path.canonicalize() {
+            Ok(real) if !real.starts_with(&root) => {
                 self.out.push(
                     Diagnostic::at(
                         self.file,

@@ -3,6 +3,7 @@
 
 pub mod escape;
 pub mod format;
+pub mod schema_check;
 pub mod since;
 pub mod strip;
 pub mod templates;

@@ -13,23 +13,77 @@ use super::view::{Effect, EstimateView, ModelView, REPORT_VERSION};
 /// The base branch's JSON report, as far as the comparison reads it.
 #[derive(Debug, Deserialize)]
 pub struct BaseReport {
-    report_version: u32,
     verdict: String,
     models: Vec<BaseModel>,
+    #[serde(default)]
+    ledger_head: Option<BaseLedger>,
+}
+
+/// Where the ledger the base branch's check read ended.
+#[derive(Debug, Deserialize)]
+struct BaseLedger {
+    entries: u64,
+    last_hash: String,
 }
 
 impl BaseReport {
-    /// Parses a base report; errors say what is wrong with it.
+    /// Parses a base report; errors say what is wrong with it. The report must have the
+    /// structure `vetscore schema report` publishes (it is the base branch's artifact, but still
+    /// a file): verdicts and statuses are then the report's own words, never free text.
     pub fn parse(text: &str) -> Result<BaseReport, String> {
-        let base: BaseReport =
+        let value: serde_json::Value =
             serde_json::from_str(text).map_err(|e| format!("not a vetscore JSON report: {e}"))?;
-        if base.report_version != REPORT_VERSION {
+        if let Some(version) = value
+            .get("report_version")
+            .and_then(serde_json::Value::as_u64)
+            && version != u64::from(REPORT_VERSION)
+        {
             return Err(format!(
-                "expected report version {REPORT_VERSION}, found {}",
-                base.report_version
+                "expected report version {REPORT_VERSION}, found {version}; regenerate the base \
+                 branch's report with this version of vetscore"
             ));
         }
+        let schema = serde_json::to_value(super::schema()).map_err(|e| e.to_string())?;
+        let problems = super::schema_check::check(&schema, &value);
+        if !problems.is_empty() {
+            return Err(format!(
+                "not a vetscore JSON report of version {REPORT_VERSION} (`vetscore schema report`): {}",
+                problems.join("; ")
+            ));
+        }
+        let base: BaseReport = serde_json::from_value(value)
+            .map_err(|e| format!("not a vetscore JSON report: {e}"))?;
+        if let Some(bad) = base
+            .models
+            .iter()
+            .flat_map(|m| &m.findings)
+            .map(|f| f.rule.as_str())
+            .find(|r| {
+                r.is_empty()
+                    || r.len() > 64
+                    || !r
+                        .bytes()
+                        .all(|b| b.is_ascii_lowercase() || b.is_ascii_digit() || b == b'_')
+            })
+        {
+            return Err(format!(
+                "not a vetscore JSON report: finding rule {} is not a rule id",
+                serde_json::Value::from(bad)
+            ));
+        }
+        if let Some(head) = base.ledger_head() {
+            head.check().map_err(|m| format!("ledger_head: {m}"))?;
+        }
         Ok(base)
+    }
+
+    /// The head of the ledger the base branch's check read: a ledger a later check reads must
+    /// extend it.
+    pub fn ledger_head(&self) -> Option<crate::ledger::Head> {
+        self.ledger_head.as_ref().map(|l| crate::ledger::Head {
+            entries: l.entries,
+            last_hash: l.last_hash.clone(),
+        })
     }
 
     /// Each model's test fingerprint in the base report.
@@ -119,14 +173,23 @@ pub struct FindingRef {
 
 /// Compares this run's models with the base report.
 pub fn compare(base: &BaseReport, models: &[ModelView]) -> SinceBase {
-    let find = |name: &str| base.models.iter().find(|m| m.name == name);
+    // Indexes by name, so the comparison is n log n in the number of models.
+    let by_name: std::collections::BTreeMap<&str, &BaseModel> = base
+        .models
+        .iter()
+        .rev()
+        .map(|m| (m.name.as_str(), m))
+        .collect();
+    let current: std::collections::BTreeSet<&str> =
+        models.iter().map(|m| m.name.as_str()).collect();
+    let find = |name: &str| by_name.get(name).copied();
     let mut since = SinceBase {
         base_verdict: base.verdict.clone(),
         added: Vec::new(),
         removed: base
             .models
             .iter()
-            .filter(|b| !models.iter().any(|m| m.name == b.name))
+            .filter(|b| !current.contains(b.name.as_str()))
             .map(|b| b.name.clone())
             .collect(),
         moved: Vec::new(),

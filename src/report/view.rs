@@ -14,7 +14,7 @@ use crate::policy::Policy;
 use crate::rules;
 
 /// Version of the JSON report format; bumped on any incompatible change.
-pub const REPORT_VERSION: u32 = 1;
+pub const REPORT_VERSION: u32 = 2;
 
 #[derive(Debug, Clone, Serialize, JsonSchema)]
 pub struct View {
@@ -30,7 +30,31 @@ pub struct View {
     pub policy_diff: Option<PolicyDiff>,
     /// What changed since the base branch's report, when one was given.
     pub since_base: Option<super::since::SinceBase>,
+    /// The holdout ledger the check read (`--ledger`), where it ends: a later check on a merge
+    /// request takes this from the base branch's report as the head its ledger must extend.
+    pub ledger_head: Option<LedgerView>,
     pub models: Vec<ModelView>,
+}
+
+/// The ledger a check read: its file, its head, and the trusted heads it was shown to extend.
+#[derive(Debug, Clone, Serialize, JsonSchema)]
+pub struct LedgerView {
+    pub file: String,
+    pub entries: u64,
+    /// `hash` of the last entry; the all-zero genesis hash for an empty ledger.
+    pub last_hash: String,
+    /// The file did not exist, so the ledger counted as empty (a repository adopting vetscore).
+    pub file_missing: bool,
+    /// Trusted heads the ledger was checked to extend (`--ledger-head`, the base report's).
+    pub extends: Vec<LedgerAnchor>,
+}
+
+#[derive(Debug, Clone, Serialize, JsonSchema)]
+pub struct LedgerAnchor {
+    /// `--ledger-head` or `baseline`.
+    pub source: &'static str,
+    pub entries: u64,
+    pub last_hash: String,
 }
 
 #[derive(Debug, Clone, Serialize, JsonSchema)]
@@ -174,6 +198,7 @@ pub fn build(assessment: &Assessment, policy: &Policy, base_policy: Option<&Poli
         notes: assessment.notes.clone(),
         policy_diff: base_policy.and_then(|base| policy_diff(base, policy)),
         since_base: None,
+        ledger_head: None,
         models,
     }
 }

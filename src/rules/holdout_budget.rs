@@ -44,12 +44,11 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
         .get(&model.data.test_fingerprint)
         .map_or(&[][..], Vec::as_slice);
     let looks = uses.len() as u64;
-    let sharing = {
-        let mut names: Vec<&str> = uses.iter().map(|u| u.model.as_str()).collect();
-        names.sort_unstable();
-        names.dedup();
-        names.len() as u64
-    };
+    let sharing = ctx
+        .models_sharing
+        .get(&model.data.test_fingerprint)
+        .copied()
+        .unwrap_or(0);
     let mut evidence = vec![
         Evidence::count("looks", "Scorings of this test split", looks),
         Evidence::count("max_evaluations", "Budget", settings.max_evaluations),

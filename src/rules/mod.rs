@@ -315,6 +315,9 @@ pub struct Context {
     pub intervals: IntervalSettings,
     /// Every scoring of each test split (by fingerprint) in the whole check.
     pub holdout_uses: BTreeMap<String, Vec<HoldoutUse>>,
+    /// How many distinct models scored each test split (by fingerprint), counted once for the
+    /// check so a rule never sorts the names again per model.
+    pub models_sharing: BTreeMap<String, u64>,
     /// The date waivers are judged against.
     pub today: jiff::civil::Date,
     /// The waivers whose model pattern matches the model being checked.

@@ -45,7 +45,18 @@ pub struct Report {
     pub notes: Vec<String>,
     pub policy_diff: Option<serde_json::Value>,
     pub since_base: Option<serde_json::Value>,
+    pub ledger_head: Option<LedgerHead>,
     pub models: Vec<ModelReport>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct LedgerHead {
+    pub file: String,
+    pub entries: u64,
+    pub last_hash: String,
+    pub file_missing: bool,
+    pub extends: Vec<serde_json::Value>,
 }
 
 #[derive(Debug, Deserialize)]

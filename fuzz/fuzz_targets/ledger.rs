@@ -1,0 +1,7 @@
+//! Fuzz target: see `harness::ledger`.
+#![no_main]
+
+#[path = "../harness.rs"]
+mod harness;
+
+libfuzzer_sys::fuzz_target!(|data: &[u8]| harness::ledger(data));
