@@ -1,4 +1,4 @@
-//! Reading an input file (manifest or policy) into its raw serde type.
+//! Parsing an input file (manifest or policy) into its raw serde type; [`crate::opener`] reads it.
 //!
 //! JSON and YAML share one path: JSON syntax is checked strictly by serde_json first (so YAML-only
 //! forms such as comments or `.nan` are not accepted in a `.json` file), then both formats are
@@ -10,9 +10,6 @@ use std::path::Path;
 use serde::de::DeserializeOwned;
 
 use crate::diag::{Diagnostic, Place};
-
-/// Largest input file read, in bytes. Larger files are refused before parsing.
-pub const MAX_INPUT_BYTES: u64 = 64 * 1024 * 1024;
 
 /// The syntax of an input file.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -31,53 +28,6 @@ impl Syntax {
             _ => Syntax::Yaml,
         }
     }
-}
-
-/// Reads a file as UTF-8 text, refusing directories, oversized files and invalid UTF-8.
-/// A leading byte-order mark is dropped.
-pub fn read_text(path: &Path) -> Result<String, Diagnostic> {
-    let shown = path.display().to_string();
-    let metadata = std::fs::metadata(path)
-        .map_err(|e| Diagnostic::file(&shown, format!("cannot read file: {}", io_reason(&e))))?;
-    if metadata.is_dir() {
-        return Err(Diagnostic::file(
-            &shown,
-            "expected a file, found a directory",
-        ));
-    }
-    if metadata.len() > MAX_INPUT_BYTES {
-        return Err(Diagnostic::file(
-            &shown,
-            format!(
-                "file is {} bytes; the limit is {MAX_INPUT_BYTES} bytes",
-                metadata.len()
-            ),
-        ));
-    }
-    let bytes = std::fs::read(path)
-        .map_err(|e| Diagnostic::file(&shown, format!("cannot read file: {}", io_reason(&e))))?;
-    let text = String::from_utf8(bytes).map_err(|e| {
-        let offset = e.utf8_error().valid_up_to();
-        let before = &e.as_bytes()[..offset];
-        let line = before.iter().filter(|&&b| b == b'\n').count() as u64 + 1;
-        let column = (offset
-            - before
-                .iter()
-                .rposition(|&b| b == b'\n')
-                .map_or(0, |p| p + 1)) as u64
-            + 1;
-        Diagnostic::at(
-            &shown,
-            Place::new(line, column),
-            "(file)",
-            "file is not valid UTF-8",
-        )
-        .with_help("save the file as UTF-8")
-    })?;
-    Ok(match text.strip_prefix('\u{feff}') {
-        Some(rest) => rest.to_owned(),
-        None => text,
-    })
 }
 
 /// A short reason for an I/O error, for messages.

@@ -23,16 +23,16 @@ pub struct Overlap {
     pub examples: Vec<String>,
 }
 
-fn open(path: &Path, named_by: &str) -> Result<std::io::BufReader<std::fs::File>, Diagnostic> {
-    std::fs::File::open(path)
+fn open(
+    path: &Path,
+    named_by: &str,
+) -> Result<std::io::BufReader<crate::opener::Bounded<std::fs::File>>, Diagnostic> {
+    crate::opener::open(path, crate::opener::Kind::Ids)
         .map(|f| std::io::BufReader::with_capacity(1 << 20, f))
-        .map_err(|e| {
+        .map_err(|reason| {
             Diagnostic::file(
                 path.display().to_string(),
-                format!(
-                    "cannot read the id list named by {named_by}: {}",
-                    crate::input::io_reason(&e)
-                ),
+                format!("cannot read the id list named by {named_by}: {reason}"),
             )
         })
 }
@@ -62,9 +62,14 @@ fn for_each_id(
                 }
             }
             Err(e) => {
-                return Err(Diagnostic::file(
-                    path.display().to_string(),
-                    format!("cannot read: {e}"),
+                return Err(Diagnostic::at(
+                    &path.display().to_string(),
+                    crate::diag::Place {
+                        line: crate::opener::limit_line(&e),
+                        column: None,
+                    },
+                    "(line)",
+                    format!("cannot read: {}", crate::opener::read_reason(&e)),
                 ));
             }
         }

@@ -102,13 +102,12 @@ fn parse_f64(cell: &[u8]) -> Option<f64> {
 /// Reads and checks a predictions file.
 pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Vec<Diagnostic>> {
     let file = path.display().to_string();
-    let handle = std::fs::File::open(path).map_err(|e| {
+    let handle = crate::opener::open(path, crate::opener::Kind::Predictions).map_err(|reason| {
         vec![Diagnostic::file(
             &file,
             format!(
-                "cannot read the predictions file named by {}: {}",
+                "cannot read the predictions file named by {}: {reason}",
                 expect.named_by,
-                crate::input::io_reason(&e)
             ),
         )]
     })?;
@@ -122,9 +121,12 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
     let header = match csv.byte_headers() {
         Ok(h) => h.clone(),
         Err(e) => {
-            return Err(vec![Diagnostic::file(
+            let (line, reason) = crate::opener::csv_failure(&e);
+            return Err(vec![Diagnostic::at(
                 &file,
-                format!("cannot read the header: {e}"),
+                Place { line, column: None },
+                "(header)",
+                format!("cannot read the header: {reason}"),
             )]);
         }
     };
@@ -347,8 +349,13 @@ fn read_rows<R: std::io::Read>(
                 row(&record, line, problems);
             }
             Err(e) => {
-                let line = e.position().map_or(0, |p| p.line());
-                problems.add(line, None, "(row)", format!("cannot read the row: {e}"));
+                let (line, reason) = crate::opener::csv_failure(&e);
+                problems.list.push(Diagnostic::at(
+                    &problems.file,
+                    Place { line, column: None },
+                    "(row)",
+                    format!("cannot read the row: {reason}"),
+                ));
                 return;
             }
         }
