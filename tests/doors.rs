@@ -530,3 +530,94 @@ fn colour_follows_the_color_option() {
     let run = check(dir.path(), &[]);
     assert!(!run.stdout.contains('\u{1b}'), "{run:?}");
 }
+
+// ---- loops that depend on floating-point progress ----
+
+#[test]
+fn trials_whose_means_differ_by_one_subnormal_do_not_hang() {
+    // 1,023 trials with mean 0 and one with mean 5e-324 (fold scores 1e-323 and 0): the
+    // histogram's bin width underflowed to 0 and its range never grew (issue 12, item 1).
+    let dir = tempfile::tempdir().unwrap();
+    scenario(dir.path());
+    let mut csv = String::from("id,fold_1,fold_2\n");
+    for i in 0..1023 {
+        csv.push_str(&format!("c{i},0,0\n"));
+    }
+    csv.push_str("last,1e-323,0\n");
+    std::fs::write(dir.path().join("trials.csv"), csv).unwrap();
+    let manifest = std::fs::read_to_string(dir.path().join("manifest.yaml"))
+        .unwrap()
+        .replace("configurations: 2", "configurations: 1024");
+    std::fs::write(dir.path().join("manifest.yaml"), manifest).unwrap();
+    let run = check(dir.path(), &[]);
+    assert!(matches!(run.code, Some(0 | 1)), "{run:?}");
+}
+
+#[test]
+fn a_very_long_model_name_is_cut_in_the_summary() {
+    // 70,000 characters: the summary padded to `{name:<width$}` and panicked past 65,535.
+    let dir = tempfile::tempdir().unwrap();
+    scenario(dir.path());
+    let long = "n".repeat(70_000);
+    let manifest = std::fs::read_to_string(dir.path().join("manifest.yaml"))
+        .unwrap()
+        .replace("name: door-model", &format!("name: {long}"));
+    std::fs::write(dir.path().join("manifest.yaml"), manifest).unwrap();
+    let run = check(dir.path(), &[]);
+    assert!(matches!(run.code, Some(0 | 1)), "{run:?}");
+    // Two spaces, 40 characters of name, then the claim and verdict.
+    let line = run.stdout.lines().next().unwrap();
+    assert!(
+        line.starts_with(&format!("  {}…  claim", "n".repeat(39))),
+        "{line}"
+    );
+}
+
+// ---- strict evidence ----
+
+#[test]
+fn blank_cells_duplicate_columns_and_control_characters_in_ids_are_refused() {
+    // Each case: the predictions file, then the message and place expected.
+    let cases = [
+        (
+            "id,label,prediction\nr1,a,a\nr2,,b\nr3,a,a\nr4,b,a\n",
+            "predictions.csv:3:2: label: expected a class in the label column, found an empty cell",
+        ),
+        (
+            "id,label,prediction\nr1,a,a\nr2,b,b\nr3,a, \nr4,b,a\n",
+            "predictions.csv:4:3: prediction: expected a class in the prediction column, found an empty cell",
+        ),
+        (
+            "id,label,prediction,prediction\nr1,a,a,b\n",
+            "predictions.csv:1:4: (header): the column \"prediction\" appears twice",
+        ),
+        (
+            "id,label,id,prediction\nr1,a,r9,a\n",
+            "predictions.csv:1:3: (header): the column \"id\" appears twice",
+        ),
+        (
+            "id,label,prediction\nr1,a,a\n\"r2\nr3\",b,b\nr4,b,a\n",
+            "predictions.csv:3:1: id: an id must not contain a line break, tab or other control character",
+        ),
+    ];
+    for (text, expected) in cases {
+        let dir = tempfile::tempdir().unwrap();
+        scenario(dir.path());
+        std::fs::write(dir.path().join("predictions.csv"), text).unwrap();
+        let run = check(dir.path(), &[]);
+        assert_eq!(run.code, Some(2), "{text:?}: {run:?}");
+        assert!(run.stderr.contains(expected), "{text:?}: {}", run.stderr);
+    }
+    let dir = tempfile::tempdir().unwrap();
+    scenario(dir.path());
+    std::fs::write(dir.path().join("test.txt"), "r1\nr2\tr3\nr4\n").unwrap();
+    let run = check(dir.path(), &[]);
+    assert_eq!(run.code, Some(2), "{run:?}");
+    assert!(
+        run.stderr.contains(
+            "test.txt:2:3: (id): an id must not contain a line break, tab or other control character"
+        ),
+        "{}",
+        run.stderr
+    );
+}

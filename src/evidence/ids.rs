@@ -51,12 +51,22 @@ fn for_each_id(
 ) -> Result<(), Diagnostic> {
     let mut reader = open(path, named_by)?;
     let mut line = Vec::new();
+    let mut number = 0u64;
     loop {
         line.clear();
+        number += 1;
         match reader.read_until(b'\n', &mut line) {
             Ok(0) => return Ok(()),
             Ok(_) => {
                 let id = clean(&line);
+                if let Some(at) = crate::evidence::control_at(id) {
+                    return Err(Diagnostic::at(
+                        &path.display().to_string(),
+                        crate::diag::Place::new(number, at as u64 + 1),
+                        "(id)",
+                        crate::evidence::CONTROL_IN_ID,
+                    ));
+                }
                 if !id.is_empty() {
                     each(id)?;
                 }
