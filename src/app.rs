@@ -177,6 +177,22 @@ fn plan(args: &crate::cli::PlanArgs) -> Result<Exit> {
             return Ok(report_problems(&[d], "nothing was planned"));
         }
     };
+    let most = crate::manifest::MAX_ROWS;
+    if plan
+        .rows_cochran
+        .max(plan.rows_hoeffding)
+        .is_some_and(|r| r > most)
+    {
+        let d = Diagnostic::file(
+            "--margin",
+            format!(
+                "a margin of ±{:e} needs more than {most} rows, the most a manifest can state",
+                plan.margin.unwrap_or_default()
+            ),
+        )
+        .with_help("ask for a wider margin, such as 0.01");
+        return Ok(report_problems(&[d], "nothing was planned"));
+    }
     if args.json {
         outln!("{}", serde_json::to_string_pretty(&plan)?);
         return Ok(Exit::Supported);
@@ -501,7 +517,8 @@ fn finding_annotations(view: &view::View) -> Vec<Annotation> {
 fn expand(patterns: &[String], problems: &mut Vec<Diagnostic>) -> Vec<PathBuf> {
     let mut paths = Vec::new();
     for pattern in patterns {
-        if !pattern.contains(['*', '?', '[']) {
+        // A path that exists is taken literally, even when its name holds `[` or `*`.
+        if !pattern.contains(['*', '?', '[']) || Path::new(pattern).exists() {
             paths.push(PathBuf::from(pattern));
             continue;
         }

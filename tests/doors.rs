@@ -621,3 +621,79 @@ fn blank_cells_duplicate_columns_and_control_characters_in_ids_are_refused() {
         run.stderr
     );
 }
+
+// ---- messages (issue 12, item 15) ----
+
+#[test]
+fn parser_messages_speak_to_the_manifest_author() {
+    let dir = tempfile::tempdir().unwrap();
+    scenario(dir.path());
+    let manifest = std::fs::read_to_string(dir.path().join("manifest.yaml")).unwrap();
+    let cases = [
+        // YAML 1.1 booleans are strings to the JSON Schema, so the parser refuses them too.
+        (
+            manifest.replace("basis: test}", "basis: test, beats_baseline: yes}"),
+            "invalid boolean (strict mode expects true/false), found `yes`",
+        ),
+        (
+            manifest.replace("name: door-model", "name: ~"),
+            "manifest.yaml:3:11: expected a value, found nothing (null)",
+        ),
+        (
+            manifest.replace("train_rows: 8", "train_rows: [8]"),
+            "expected a single value, found a list",
+        ),
+        (
+            format!("{manifest}---\nformat_version: 1\n"),
+            "the file holds more than one YAML document",
+        ),
+    ];
+    for (text, expected) in cases {
+        std::fs::write(dir.path().join("manifest.yaml"), &text).unwrap();
+        let run = check(dir.path(), &[]);
+        assert_eq!(run.code, Some(2), "{run:?}");
+        assert!(run.stderr.contains(expected), "{expected}: {}", run.stderr);
+        for internal in ["from_str_multiple", "Option<String>", "string scalar"] {
+            assert!(!run.stderr.contains(internal), "{}", run.stderr);
+        }
+    }
+}
+
+#[test]
+fn a_manifest_path_with_a_bracket_is_taken_literally_when_it_exists() {
+    let dir = tempfile::tempdir().unwrap();
+    scenario(dir.path());
+    std::fs::rename(
+        dir.path().join("manifest.yaml"),
+        dir.path().join("run[1].yaml"),
+    )
+    .unwrap();
+    let run = run_bounded(
+        dir.path(),
+        &["check", "--today", "2026-12-01", "run[1].yaml"],
+        None,
+        &[],
+        LIMIT,
+    );
+    assert!(matches!(run.code, Some(0 | 1)), "{run:?}");
+}
+
+#[test]
+fn a_margin_no_split_can_reach_is_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    let run = run_bounded(
+        dir.path(),
+        &["plan", "--margin", "1e-300"],
+        None,
+        &[],
+        LIMIT,
+    );
+    assert_eq!(run.code, Some(2), "{run:?}");
+    assert!(!run.stdout.contains("18446744073709551615"));
+    assert!(
+        run.stderr
+            .contains("needs more than 9007199254740992 rows, the most a manifest can state"),
+        "{}",
+        run.stderr
+    );
+}
