@@ -37,11 +37,13 @@ type Target = (&'static str, fn(&[u8]));
 
 #[test]
 fn every_kept_crash_input_replays_cleanly() {
-    let targets: [Target; 4] = [
+    let targets: [Target; 6] = [
         ("manifest", harness::manifest),
         ("policy", harness::policy),
         ("trials", harness::trials),
         ("markdown", harness::markdown),
+        ("predictions", harness::predictions),
+        ("ids", harness::ids),
     ];
     let replayed: usize = targets.iter().map(|(t, run)| replay(t, *run)).sum();
     // The two u64-overflow manifests (fixed in validate.rs) are kept at least.
