@@ -276,17 +276,19 @@ fn report_problems(problems: &[Diagnostic], what: &str) -> Exit {
 
 fn ledger(action: LedgerAction) -> Result<Exit> {
     match action {
-        LedgerAction::Verify { ledger } => match crate::ledger::store::read(&ledger, false) {
-            Ok(entries) => {
-                outln!(
-                    "{}: {} entries, hash chain intact",
-                    ledger.display(),
-                    entries.len()
-                );
-                Ok(Exit::Supported)
+        LedgerAction::Verify { ledger } => {
+            match vet_ledger(&ledger).and_then(|()| crate::ledger::store::read(&ledger, false)) {
+                Ok(entries) => {
+                    outln!(
+                        "{}: {} entries, hash chain intact",
+                        ledger.display(),
+                        entries.len()
+                    );
+                    Ok(Exit::Supported)
+                }
+                Err(d) => Ok(report_problems(&[d], "the ledger cannot be trusted")),
             }
-            Err(d) => Ok(report_problems(&[d], "the ledger cannot be trusted")),
-        },
+        }
         LedgerAction::Append {
             ledger,
             manifests,
@@ -297,6 +299,9 @@ fn ledger(action: LedgerAction) -> Result<Exit> {
             if !problems.is_empty() {
                 return Ok(report_problems(&problems, "nothing was recorded"));
             }
+            if let Err(d) = vet_ledger(&ledger) {
+                return Ok(report_problems(&[d], "nothing was recorded"));
+            }
             match crate::ledger::store::append(&ledger, &models)? {
                 Ok(added) => {
                     outln!("{}: {added} new entries recorded", ledger.display());
@@ -306,6 +311,24 @@ fn ledger(action: LedgerAction) -> Result<Exit> {
             }
         }
     }
+}
+
+/// Refuses a ledger the opener would refuse (a FIFO, a device, a file over 256 MiB) before
+/// `ledger::store` reads it: the store reads the file itself, and a FIFO would block it. A missing
+/// ledger is left to the store. Once the store reads through `opener::open(path, Kind::Ledger)`
+/// this check is redundant and can go.
+fn vet_ledger(path: &Path) -> Result<(), Diagnostic> {
+    if std::fs::symlink_metadata(path).is_err() {
+        return Ok(());
+    }
+    crate::opener::open(path, crate::opener::Kind::Ledger)
+        .map(drop)
+        .map_err(|reason| {
+            Diagnostic::file(
+                path.display().to_string(),
+                format!("cannot read the ledger: {reason}"),
+            )
+        })
 }
 
 /// Loads every manifest the patterns name, collecting problems (including duplicate names).
@@ -391,7 +414,8 @@ fn check(args: &CheckArgs) -> Result<Exit> {
         .and_then(|path| Policy::load(path).map_err(|d| problems.extend(d)).ok());
     let models = load_models(&args.manifests, args.root.as_deref(), &mut problems);
     let ledger = match &args.ledger {
-        Some(path) => crate::ledger::store::read(path, false)
+        Some(path) => vet_ledger(path)
+            .and_then(|()| crate::ledger::store::read(path, false))
             .map_err(|d| problems.push(d))
             .unwrap_or_default(),
         None => Vec::new(),

@@ -126,6 +126,45 @@ fn a_fifo_in_place_of_any_input_is_refused_without_blocking() {
     }
 }
 
+/// The ledger and the base report, given on the command line, as FIFOs.
+#[cfg(unix)]
+#[test]
+fn a_fifo_ledger_or_base_report_is_refused_without_blocking() {
+    for (option, kind) in [("--ledger", "ledger"), ("--baseline", "base report")] {
+        let dir = tempfile::tempdir().unwrap();
+        scenario(dir.path());
+        let made = std::process::Command::new("mkfifo")
+            .arg(dir.path().join("fifo"))
+            .status()
+            .unwrap();
+        assert!(made.success());
+        let run = check(dir.path(), &[option, "fifo"]);
+        refused(
+            &run,
+            "fifo",
+            &format!("cannot read the {kind}: it is a named pipe (FIFO)"),
+        );
+    }
+    let dir = tempfile::tempdir().unwrap();
+    let made = std::process::Command::new("mkfifo")
+        .arg(dir.path().join("fifo"))
+        .status()
+        .unwrap();
+    assert!(made.success());
+    let run = run_bounded(
+        dir.path(),
+        &["ledger", "verify", "--ledger", "fifo"],
+        None,
+        &[],
+        LIMIT,
+    );
+    refused(
+        &run,
+        "fifo",
+        "cannot read the ledger: it is a named pipe (FIFO)",
+    );
+}
+
 #[cfg(unix)]
 #[test]
 fn a_symlink_to_an_endless_device_is_refused() {
