@@ -43,6 +43,112 @@ fn assert_rejected(problems: &[Diagnostic]) {
     }
 }
 
+/// A file in the temporary directory holding `bytes`, unique to this process and `name`: the
+/// predictions and id-list readers open files through the opener, and fuzzing them through a
+/// real file drives the opener's limits too.
+fn scratch(name: &str, bytes: &[u8]) -> std::path::PathBuf {
+    // Tests run cases on several threads at once; each call gets its own file.
+    static CALLS: std::sync::atomic::AtomicU64 = std::sync::atomic::AtomicU64::new(0);
+    let call = CALLS.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+    let path = std::env::temp_dir().join(format!(
+        "vetscore-fuzz-{}-{call}-{name}",
+        std::process::id()
+    ));
+    std::fs::write(&path, bytes).unwrap();
+    path
+}
+
+/// A predictions file → `read_predictions`. The selector byte picks the task (binary,
+/// multiclass, regression) and whether the manifest lists the classes. An accepted file keeps
+/// its promises: one id per row, none empty or holding a control character, ids unique, every
+/// column as long as the ids, class indices in range, a `sha256:` fingerprint.
+pub fn predictions(data: &[u8]) {
+    use vetscore::evidence::read::Expect;
+    use vetscore::evidence::{Columns, read_predictions};
+    let Some((&selector, rest)) = data.split_first() else {
+        return;
+    };
+    let task = match selector % 3 {
+        0 => Task::Binary,
+        1 => Task::Multiclass,
+        _ => Task::Regression,
+    };
+    let listed = ["a".to_owned(), "b".to_owned(), "c".to_owned()];
+    let classes = (selector & 0x10 != 0).then_some(&listed[..]);
+    let path = scratch("predictions.csv", rest);
+    let expect = Expect {
+        task,
+        classes,
+        positive: None,
+        named_by: "fuzz",
+        fingerprint: true,
+    };
+    match read_predictions(&path, expect) {
+        Err(problems) => assert_rejected(&problems),
+        Ok(set) => {
+            let rows = set.rows();
+            assert!(rows > 0, "an accepted file has rows");
+            assert!(set.fingerprint.starts_with("sha256:"));
+            assert_eq!(set.order.len(), rows);
+            let mut ids: Vec<&[u8]> = (0..rows).map(|i| set.ids.get(i)).collect();
+            for id in &ids {
+                assert!(!id.is_empty(), "an empty id was accepted");
+                assert!(
+                    !id.iter().any(|&b| b < 0x20 || b == 0x7f),
+                    "an id with a control character was accepted: {id:?}"
+                );
+            }
+            ids.sort_unstable();
+            assert!(
+                ids.windows(2).all(|w| w[0] != w[1]),
+                "a duplicate id was accepted"
+            );
+            match &set.columns {
+                Columns::Classification {
+                    classes,
+                    actual,
+                    predicted,
+                    ..
+                } => {
+                    assert_eq!(actual.len(), rows);
+                    assert!(classes.iter().all(|c| !c.is_empty()), "a blank class");
+                    for &c in actual.iter().chain(predicted.iter().flatten()) {
+                        assert!((c as usize) < classes.len());
+                    }
+                }
+                Columns::Regression { target, prediction } => {
+                    assert_eq!(target.len(), rows);
+                    assert_eq!(prediction.len(), rows);
+                    assert!(target.iter().chain(prediction).all(|v| v.is_finite()));
+                }
+            }
+        }
+    }
+    let _ = std::fs::remove_file(&path);
+}
+
+/// Two id lists (split at the first NUL byte: train, then test) → `ids::overlap`. Accepted
+/// lists: the shared count is at most either list's count, and the examples are shared ids.
+pub fn ids(data: &[u8]) {
+    let split = data.iter().position(|&b| b == 0).unwrap_or(data.len());
+    let (train, test) = (&data[..split], data.get(split + 1..).unwrap_or_default());
+    let train_path = scratch("train.txt", train);
+    let test_path = scratch("test.txt", test);
+    match vetscore::evidence::ids::overlap(&train_path, "fuzz", &test_path, "fuzz") {
+        Err(d) => assert_rejected(&[d]),
+        Ok(overlap) => {
+            assert!(overlap.shared <= overlap.train_ids);
+            assert!(overlap.examples.len() as u64 <= overlap.shared);
+            assert!(overlap.examples.len() <= vetscore::evidence::ids::SHOWN);
+            for e in &overlap.examples {
+                assert!(!e.is_empty() && !e.chars().any(char::is_control), "{e:?}");
+            }
+        }
+    }
+    let _ = std::fs::remove_file(&train_path);
+    let _ = std::fs::remove_file(&test_path);
+}
+
 /// Manifest text → parse → validate; an accepted manifest is then evaluated under the default
 /// policy and rendered to Markdown and JSON, as `vetscore check` would.
 pub fn manifest(data: &[u8]) {

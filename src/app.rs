@@ -6,7 +6,8 @@ use std::path::{Path, PathBuf};
 
 use anyhow::{Context as _, Result, bail};
 
-use crate::cli::{CheckArgs, Cli, Command, LedgerAction, SchemaFormat};
+use crate::cli::{CheckArgs, Cli, Color, Command, LedgerAction, SchemaFormat};
+use crate::console::{self, Annotation, Console, Level};
 use crate::diag::Diagnostic;
 use crate::finding::Verdict;
 use crate::manifest::{self, Model};
@@ -15,20 +16,55 @@ use crate::report::templates::{self, Templates};
 use crate::report::{self, terminal, view};
 use crate::{evaluate, rules};
 
-/// Writes a line to standard output; a closed or broken pipe is an error the caller passes up
-/// (exit code 3), never a crash.
+/// Writes a line to standard output through the console; a closed or broken pipe is an error
+/// the caller passes up (exit code 3), never a crash.
 macro_rules! outln {
     ($($arg:tt)*) => {
-        writeln!(std::io::stdout().lock(), $($arg)*).context("writing to standard output")?
+        console()
+            .out(&format!("{}\n", format_args!($($arg)*)))
+            .context("writing to standard output")?
     };
 }
 
-/// Writes a line to standard error. If even that fails there is nowhere left to report to; the
-/// exit code still tells what happened.
+/// Writes a line to standard error through the console. A failure is remembered and turns the
+/// run into exit code 3 at the end ([`run`]): the problems it should have listed were not seen.
 macro_rules! errln {
     ($($arg:tt)*) => {
-        let _ = writeln!(std::io::stderr().lock(), $($arg)*);
+        if console().err(&format!("{}\n", format_args!($($arg)*))).is_err() {
+            STDERR_FAILED.store(true, std::sync::atomic::Ordering::Relaxed);
+        }
     };
+}
+
+/// Where this run's output goes; set once by [`run`] from `--color` and the environment.
+static CONSOLE: std::sync::OnceLock<Console> = std::sync::OnceLock::new();
+
+/// A write to standard error failed during this run.
+static STDERR_FAILED: std::sync::atomic::AtomicBool = std::sync::atomic::AtomicBool::new(false);
+
+/// The run's console (plain, without colour, before [`run`] sets it).
+pub fn console() -> Console {
+    CONSOLE.get().copied().unwrap_or_default()
+}
+
+/// The console for `--color`: `auto` colours a stream that is a terminal when `NO_COLOR` is
+/// unset or empty (<https://no-color.org>).
+pub fn console_for(color: Color) -> Console {
+    let no_color = std::env::var_os("NO_COLOR").is_some_and(|v| !v.is_empty());
+    let decide = |terminal: bool| match color {
+        Color::Always => true,
+        Color::Never => false,
+        Color::Auto => terminal && !no_color,
+    };
+    Console {
+        stdout_color: decide(std::io::stdout().is_terminal()),
+        stderr_color: decide(std::io::stderr().is_terminal()),
+    }
+}
+
+/// Whether vetscore runs as a GitHub Actions step, where it writes annotations.
+fn github_actions() -> bool {
+    std::env::var_os("GITHUB_ACTIONS").is_some_and(|v| v == "true")
 }
 
 /// How a run ended; `main` turns it into the process exit code.
@@ -56,8 +92,30 @@ impl Exit {
 pub const INTERNAL_ERROR: u8 = 3;
 
 /// Runs a parsed command line.
+///
+/// Every write is checked: a report, summary or diagnostic that could not be written is exit
+/// code 3. The one exception is a listing command (`explain`, `schema`, `plan`) whose reader
+/// stopped reading (`vetscore explain | head`): a broken pipe there ends the run quietly with
+/// exit 0, as Unix tools do; nothing was decided, so nothing is lost. `check` never takes that
+/// exception: a gate whose report was cut off must not look like a verdict.
 pub fn run(cli: Cli) -> Result<Exit> {
-    match cli.command {
+    let _ = CONSOLE.set(console_for(cli.color));
+    let listing = matches!(
+        cli.command,
+        Command::Explain { .. } | Command::Schema { .. } | Command::Plan(_)
+    );
+    let result = match run_command(cli.command) {
+        Err(e) if listing && console::is_broken_pipe(&e) => Ok(Exit::Supported),
+        other => other,
+    };
+    if STDERR_FAILED.load(std::sync::atomic::Ordering::Relaxed) {
+        bail!("writing to standard error failed");
+    }
+    result
+}
+
+fn run_command(command: Command) -> Result<Exit> {
+    match command {
         Command::Check(args) => check(&args),
         Command::Explain { rule } => explain(rule.as_deref()),
         Command::Schema { format } => {
@@ -119,6 +177,22 @@ fn plan(args: &crate::cli::PlanArgs) -> Result<Exit> {
             return Ok(report_problems(&[d], "nothing was planned"));
         }
     };
+    let most = crate::manifest::MAX_ROWS;
+    if plan
+        .rows_cochran
+        .max(plan.rows_hoeffding)
+        .is_some_and(|r| r > most)
+    {
+        let d = Diagnostic::file(
+            "--margin",
+            format!(
+                "a margin of ±{:e} needs more than {most} rows, the most a manifest can state",
+                plan.margin.unwrap_or_default()
+            ),
+        )
+        .with_help("ask for a wider margin, such as 0.01");
+        return Ok(report_problems(&[d], "nothing was planned"));
+    }
     if args.json {
         outln!("{}", serde_json::to_string_pretty(&plan)?);
         return Ok(Exit::Supported);
@@ -176,13 +250,21 @@ fn plan(args: &crate::cli::PlanArgs) -> Result<Exit> {
             &mut rows,
         );
     }
-    write!(std::io::stdout().lock(), "{text}").context("writing to standard output")?;
+    console().out(&text).context("writing to standard output")?;
     Ok(Exit::Supported)
 }
 
 fn report_problems(problems: &[Diagnostic], what: &str) -> Exit {
     for p in problems {
         errln!("error: {p}");
+    }
+    if github_actions() {
+        for p in problems {
+            let annotation = problem_annotation(p);
+            if console().annotate(&annotation).is_err() {
+                STDERR_FAILED.store(true, std::sync::atomic::Ordering::Relaxed);
+            }
+        }
     }
     errln!(
         "vetscore: {} input problem{} found; {what}",
@@ -316,6 +398,15 @@ fn explain(rule: Option<&str>) -> Result<Exit> {
 }
 
 fn check(args: &CheckArgs) -> Result<Exit> {
+    let stdout = Some(Path::new("-"));
+    if args.markdown.as_deref() == stdout && args.json.as_deref() == stdout {
+        let d = Diagnostic::file(
+            "(command line)",
+            "--markdown - and --json - would both write to standard output",
+        )
+        .with_help("write one of the two reports to a file");
+        return Ok(report_problems(&[d], "nothing was checked"));
+    }
     let mut problems = Vec::new();
     let today = match &args.today {
         Some(text) => match text.parse::<jiff::civil::Date>() {
@@ -344,7 +435,7 @@ fn check(args: &CheckArgs) -> Result<Exit> {
         .and_then(|path| Policy::load(path).map_err(|d| problems.extend(d)).ok());
     let models = load_models(&args.manifests, args.root.as_deref(), &mut problems);
     let base_report = args.baseline.as_ref().and_then(|path| {
-        crate::input::read_text(path)
+        crate::opener::read_text(Some(path), crate::opener::Kind::BaseReport)
             .and_then(|text| {
                 report::since::BaseReport::parse(&text)
                     .map_err(|message| Diagnostic::file(path.display().to_string(), message))
@@ -402,22 +493,22 @@ fn check(args: &CheckArgs) -> Result<Exit> {
         append(Path::new(&summary), &markdown_text)
             .context("appending the report to GITHUB_STEP_SUMMARY")?;
     }
-    let no_color = std::env::var_os("NO_COLOR").is_some_and(|v| !v.is_empty());
+    if github_actions() {
+        for annotation in finding_annotations(&view) {
+            console()
+                .annotate(&annotation)
+                .context("writing GitHub annotations")?;
+        }
+    }
+    let console = console();
     if markdown_to_stdout || args.json.as_deref() == Some(Path::new("-")) {
-        let color = std::io::stderr().is_terminal() && !no_color;
-        let _ = write!(
-            std::io::stderr().lock(),
-            "{}",
-            terminal::render(&view, color)
-        );
+        console
+            .err(&terminal::render(&view, console.stderr_color))
+            .context("writing the terminal summary to standard error")?;
     } else {
-        let color = std::io::stdout().is_terminal() && !no_color;
-        write!(
-            std::io::stdout().lock(),
-            "{}",
-            terminal::render(&view, color)
-        )
-        .context("writing the terminal summary")?;
+        console
+            .out(&terminal::render(&view, console.stdout_color))
+            .context("writing the terminal summary")?;
     }
     Ok(match assessment.verdict {
         Verdict::NotSupported => Exit::NotSupported,
@@ -470,11 +561,59 @@ fn read_ledger(
     Some((loaded, view))
 }
 
+/// The GitHub annotation for an input problem: on its file and line.
+fn problem_annotation(p: &Diagnostic) -> Annotation {
+    let mut message = match &p.path {
+        Some(path) => format!("{path}: {}", p.message),
+        None => p.message.clone(),
+    };
+    if let Some(help) = &p.help {
+        message.push_str(&format!("\nhelp: {help}"));
+    }
+    Annotation {
+        level: Level::Error,
+        file: p.file.clone(),
+        line: p.line,
+        column: p.column,
+        title: Some("vetscore: invalid input".to_owned()),
+        message,
+    }
+}
+
+/// GitHub annotations for the findings that block or warn: on the model's manifest line, or for
+/// a policy change on the policy line the setting came from.
+fn finding_annotations(view: &view::View) -> Vec<Annotation> {
+    let mut out = Vec::new();
+    for m in &view.models {
+        for f in &m.findings {
+            let level = match f.effect {
+                view::Effect::Blocks => Level::Error,
+                view::Effect::Warns => Level::Warning,
+                view::Effect::None => continue,
+            };
+            let (file, line) = match (&view.policy.file, f.rule) {
+                (Some(policy), "policy_change") => (policy.clone(), f.policy.line),
+                _ => (m.file.clone(), m.line),
+            };
+            out.push(Annotation {
+                level,
+                file,
+                line,
+                column: None,
+                title: Some(format!("vetscore: {} ({})", f.rule_name, m.name)),
+                message: f.message.clone(),
+            });
+        }
+    }
+    out
+}
+
 /// Expands glob patterns; a pattern that matches nothing is an input problem.
 fn expand(patterns: &[String], problems: &mut Vec<Diagnostic>) -> Vec<PathBuf> {
     let mut paths = Vec::new();
     for pattern in patterns {
-        if !pattern.contains(['*', '?', '[']) {
+        // A path that exists is taken literally, even when its name holds `[` or `*`.
+        if !pattern.contains(['*', '?', '[']) || Path::new(pattern).exists() {
             paths.push(PathBuf::from(pattern));
             continue;
         }
@@ -597,24 +736,28 @@ fn duplicate_names(models: &[Model]) -> Vec<Diagnostic> {
     out
 }
 
+/// Writes a report to standard output (`-`) or, atomically, to a file: a full disk or a crash
+/// never leaves half a report where the CI step would post it.
 fn write_output(path: &Path, text: &str) -> Result<()> {
     if path == Path::new("-") {
-        let mut stdout = std::io::stdout().lock();
-        stdout.write_all(text.as_bytes())?;
-        stdout.flush()?;
-        return Ok(());
+        return console()
+            .document(text)
+            .context("writing the report to standard output");
     }
     if path.is_dir() {
         bail!("cannot write {}: it is a directory", path.display());
     }
-    std::fs::write(path, text).with_context(|| format!("cannot write {}", path.display()))
+    crate::atomic::write(path, text.as_bytes())
+        .with_context(|| format!("cannot write {}", path.display()))
 }
 
 fn append(path: &Path, text: &str) -> Result<()> {
     let mut file = std::fs::OpenOptions::new()
         .create(true)
         .append(true)
-        .open(path)?;
-    file.write_all(text.as_bytes())?;
-    Ok(())
+        .open(path)
+        .with_context(|| format!("cannot open {}", path.display()))?;
+    file.write_all(text.as_bytes())
+        .and_then(|()| file.sync_data())
+        .with_context(|| format!("cannot write {}", path.display()))
 }

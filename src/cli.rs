@@ -15,6 +15,18 @@ use clap::{Parser, Subcommand, ValueEnum};
 pub struct Cli {
     #[command(subcommand)]
     pub command: Command,
+
+    /// When to colour the output: `auto` colours a terminal when NO_COLOR is unset or empty.
+    #[arg(long, global = true, value_enum, value_name = "WHEN", default_value_t = Color::Auto)]
+    pub color: Color,
+}
+
+/// When output is coloured.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum Color {
+    Auto,
+    Always,
+    Never,
 }
 
 #[derive(Debug, Subcommand)]
@@ -125,7 +137,8 @@ pub enum SchemaFormat {
 
 #[derive(Debug, clap::Args)]
 pub struct CheckArgs {
-    /// Results manifests (JSON or YAML): paths or glob patterns such as `runs/*.yaml`.
+    /// Results manifests (JSON or YAML): paths or glob patterns such as `runs/*.yaml`; `-` reads
+    /// one manifest from standard input. A path that exists is taken literally, even with `[`.
     #[arg(required = true, value_name = "MANIFEST")]
     pub manifests: Vec<String>,
 
@@ -133,7 +146,7 @@ pub struct CheckArgs {
     #[arg(short, long, value_name = "FILE")]
     pub policy: Option<PathBuf>,
 
-    /// Write the Markdown report to FILE (`-` for standard output).
+    /// Write the Markdown report to FILE (`-` for standard output; not together with `--json -`).
     #[arg(long, value_name = "FILE")]
     pub markdown: Option<PathBuf>,
 

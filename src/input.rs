@@ -1,4 +1,4 @@
-//! Reading an input file (manifest or policy) into its raw serde type.
+//! Parsing an input file (manifest or policy) into its raw serde type; [`crate::opener`] reads it.
 //!
 //! JSON and YAML share one path: JSON syntax is checked strictly by serde_json first (so YAML-only
 //! forms such as comments or `.nan` are not accepted in a `.json` file), then both formats are
@@ -10,9 +10,6 @@ use std::path::Path;
 use serde::de::DeserializeOwned;
 
 use crate::diag::{Diagnostic, Place};
-
-/// Largest input file read, in bytes. Larger files are refused before parsing.
-pub const MAX_INPUT_BYTES: u64 = 64 * 1024 * 1024;
 
 /// The syntax of an input file.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -31,53 +28,6 @@ impl Syntax {
             _ => Syntax::Yaml,
         }
     }
-}
-
-/// Reads a file as UTF-8 text, refusing directories, oversized files and invalid UTF-8.
-/// A leading byte-order mark is dropped.
-pub fn read_text(path: &Path) -> Result<String, Diagnostic> {
-    let shown = path.display().to_string();
-    let metadata = std::fs::metadata(path)
-        .map_err(|e| Diagnostic::file(&shown, format!("cannot read file: {}", io_reason(&e))))?;
-    if metadata.is_dir() {
-        return Err(Diagnostic::file(
-            &shown,
-            "expected a file, found a directory",
-        ));
-    }
-    if metadata.len() > MAX_INPUT_BYTES {
-        return Err(Diagnostic::file(
-            &shown,
-            format!(
-                "file is {} bytes; the limit is {MAX_INPUT_BYTES} bytes",
-                metadata.len()
-            ),
-        ));
-    }
-    let bytes = std::fs::read(path)
-        .map_err(|e| Diagnostic::file(&shown, format!("cannot read file: {}", io_reason(&e))))?;
-    let text = String::from_utf8(bytes).map_err(|e| {
-        let offset = e.utf8_error().valid_up_to();
-        let before = &e.as_bytes()[..offset];
-        let line = before.iter().filter(|&&b| b == b'\n').count() as u64 + 1;
-        let column = (offset
-            - before
-                .iter()
-                .rposition(|&b| b == b'\n')
-                .map_or(0, |p| p + 1)) as u64
-            + 1;
-        Diagnostic::at(
-            &shown,
-            Place::new(line, column),
-            "(file)",
-            "file is not valid UTF-8",
-        )
-        .with_help("save the file as UTF-8")
-    })?;
-    Ok(match text.strip_prefix('\u{feff}') {
-        Some(rest) => rest.to_owned(),
-        None => text,
-    })
 }
 
 /// A short reason for an I/O error, for messages.
@@ -111,7 +61,7 @@ pub fn parse<T: DeserializeOwned>(file: &str, text: &str, syntax: Syntax) -> Res
             format!("invalid JSON: {message}"),
         ));
     }
-    let options = serde_saphyr::options! { with_snippet: false };
+    let options = serde_saphyr::options! { with_snippet: false, strict_booleans: true };
     serde_saphyr::from_str_with_options::<T>(text, options).map_err(|e| {
         let place = e.location().map(|l| Place::of(&l)).unwrap_or_default();
         let mut message = strip_position(&e.to_string(), " at line ");
@@ -123,6 +73,8 @@ pub fn parse<T: DeserializeOwned>(file: &str, text: &str, syntax: Syntax) -> Res
             message = budget_message(limit);
         } else if message == "recursion limit exceeded" {
             message = "the document exceeds the limit on nesting depth".to_owned();
+        } else {
+            message = plain_message(&message, token_at(text, place).as_deref());
         }
         // Type errors say what was expected; add what was found.
         if message.starts_with("invalid ")
@@ -139,15 +91,42 @@ pub fn parse<T: DeserializeOwned>(file: &str, text: &str, syntax: Syntax) -> Res
             help: None,
         };
         if diagnostic.message.starts_with("the document exceeds") {
-            return diagnostic.with_help(
-                "anchors and aliases (`&a`, `*a`) can expand a small file enormously; write the values out and keep nesting shallow",
-            );
+            // Blame aliases only where the file has some: a plain file over the node limit is
+            // simply too large for one document.
+            return diagnostic.with_help(if text.contains('*') && text.contains('&') {
+                "anchors and aliases (`&a`, `*a`) can expand a small file enormously; write the values out and keep nesting shallow"
+            } else {
+                "split the models over several manifests: one document holds at most 250,000 values, a few thousand models"
+            });
         }
         match unknown_field_hint(&diagnostic.message) {
             Some(hint) => diagnostic.with_help(hint),
             None => diagnostic,
         }
     })
+}
+
+/// Replaces the parser's programmer-facing texts (which name its own API or Rust types) with
+/// what a manifest author can act on. `token` is the text at the error's position.
+fn plain_message(message: &str, token: Option<&str>) -> String {
+    if message.starts_with("multiple YAML documents detected") {
+        return "the file holds more than one YAML document (a `---` line starts another); \
+                a manifest or policy is one document"
+            .to_owned();
+    }
+    if message.starts_with("cannot deserialize null into") {
+        return "expected a value, found nothing (null)".to_owned();
+    }
+    if message == "expected string scalar" || message.starts_with("expected scalar") {
+        let found = match token.and_then(|t| t.chars().next()) {
+            Some('[') | Some('-') => "a list",
+            Some('{') => "a mapping",
+            Some(_) => "a nested value",
+            None => "a list or mapping",
+        };
+        return format!("expected a single value, found {found}");
+    }
+    message.to_owned()
 }
 
 /// serde-saphyr reports a breached parsing budget as the `Debug` form of its limit, such as

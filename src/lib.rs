@@ -2,7 +2,9 @@
 #![cfg_attr(test, allow(clippy::unwrap_used))]
 
 pub mod app;
+pub mod atomic;
 pub mod cli;
+pub mod console;
 pub mod diag;
 pub mod estimate;
 pub mod evaluate;
@@ -11,6 +13,7 @@ pub mod finding;
 pub mod input;
 pub mod ledger;
 pub mod manifest;
+pub mod opener;
 pub mod plan;
 pub mod policy;
 pub mod report;

@@ -1,6 +1,6 @@
 //! The `vetscore` binary: parse the command line, run the app, map the result to an exit code.
-
-#![allow(clippy::print_stderr)]
+//! Everything it prints goes through the console (`vetscore::console`), clap's help and errors
+//! and the crash message included.
 
 use std::process::ExitCode;
 
@@ -9,19 +9,39 @@ use vetscore::app::{self, INTERNAL_ERROR};
 use vetscore::cli::Cli;
 
 fn main() -> ExitCode {
-    let default_hook = std::panic::take_hook();
-    std::panic::set_hook(Box::new(move |info| {
-        default_hook(info);
-        eprintln!(
-            "vetscore crashed: this is a bug in vetscore, not a verdict on your models. \
-             Please report it with the message above and the command you ran."
-        );
+    std::panic::set_hook(Box::new(|info| {
+        // The default hook would print the panic message raw; it may quote input text.
+        let backtrace = std::backtrace::Backtrace::capture();
+        let trace = match backtrace.status() {
+            std::backtrace::BacktraceStatus::Captured => format!("\n{backtrace}"),
+            _ => String::new(),
+        };
+        let _ = app::console().err(&format!(
+            "{info}{trace}\nvetscore crashed: this is a bug in vetscore, not a verdict on your \
+             models. Please report it with the message above and the command you ran.\n"
+        ));
     }));
-    let cli = Cli::parse();
+    let cli = match Cli::try_parse() {
+        Ok(cli) => cli,
+        Err(error) => {
+            // Help and version go to standard output with exit 0; usage errors to standard
+            // error with exit 2.
+            let text = error.render().to_string();
+            let written = if error.use_stderr() {
+                app::console().err(&text)
+            } else {
+                app::console().out(&text)
+            };
+            return match (written, error.exit_code()) {
+                (Err(_), 0) => ExitCode::from(INTERNAL_ERROR),
+                (_, code) => ExitCode::from(u8::try_from(code).unwrap_or(INTERNAL_ERROR)),
+            };
+        }
+    };
     match app::run(cli) {
         Ok(exit) => ExitCode::from(exit.code()),
         Err(error) => {
-            eprintln!("vetscore could not finish: {error:#}");
+            let _ = app::console().err(&format!("vetscore could not finish: {error:#}\n"));
             ExitCode::from(INTERNAL_ERROR)
         }
     }

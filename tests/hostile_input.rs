@@ -114,8 +114,12 @@ fn a_file_over_the_size_limit_is_refused_before_it_is_read() {
     let path = dir.path().join("huge.yaml");
     let file = std::fs::File::create(&path).unwrap();
     // Sparse: 64 MiB + 1 byte of zeros without writing them.
-    file.set_len(vetscore::input::MAX_INPUT_BYTES + 1).unwrap();
-    rejects(&path, "file is 67108865 bytes; the limit is 67108864 bytes");
+    file.set_len(vetscore::opener::Kind::Manifest.max_bytes() + 1)
+        .unwrap();
+    rejects(
+        &path,
+        "it is 67108865 bytes; the limit for a manifest is 67108864 bytes",
+    );
 }
 
 #[test]

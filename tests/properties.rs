@@ -173,3 +173,57 @@ proptest! {
         harness::markdown(input.as_bytes());
     }
 }
+
+/// CSV-like bytes: a header from the column names the reader knows (some repeated), then rows
+/// of cells drawn from ids, classes, numbers, blanks, quotes, line breaks and control bytes.
+fn predictions_file() -> impl Strategy<Value = Vec<u8>> {
+    let column = prop::sample::select(vec![
+        "id",
+        "label",
+        "prediction",
+        "score",
+        "target",
+        "prob_a",
+        "prob_b",
+        "other",
+    ]);
+    let cell = prop::sample::select(vec![
+        "r1", "r2", "r3", "a", "b", "c", "", " ", "0.5", "1", "-3e9", "nan", "\"x\ny\"", "\"\"",
+        "\u{1}", "r\tx", "\"a,b\"",
+    ]);
+    (
+        prop::collection::vec(column, 1..6),
+        prop::collection::vec(prop::collection::vec(cell, 0..6), 0..12),
+        any::<u8>(),
+    )
+        .prop_map(|(header, rows, selector)| {
+            let mut text = vec![selector];
+            text.extend_from_slice(header.join(",").as_bytes());
+            for row in rows {
+                text.push(b'\n');
+                text.extend_from_slice(row.join(",").as_bytes());
+            }
+            text
+        })
+}
+
+proptest! {
+    // Each case writes a scratch file and reads it back through the opener.
+    #![proptest_config(ProptestConfig::with_cases(256))]
+
+    #[test]
+    fn predictions_files_are_read_or_refused_with_a_diagnostic(file in predictions_file()) {
+        harness::predictions(&file);
+    }
+
+    #[test]
+    fn id_lists_are_compared_or_refused_with_a_diagnostic(
+        train in prop::collection::vec(any::<u8>(), 0..200),
+        test in prop::collection::vec(any::<u8>(), 0..200),
+    ) {
+        let mut data = train.into_iter().filter(|&b| b != 0).collect::<Vec<u8>>();
+        data.push(0);
+        data.extend(test);
+        harness::ids(&data);
+    }
+}

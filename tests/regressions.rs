@@ -37,7 +37,7 @@ type Target = (&'static str, fn(&[u8]));
 
 #[test]
 fn every_kept_crash_input_replays_cleanly() {
-    let targets: [Target; 6] = [
+    let targets: [Target; 8] = [
         ("manifest", harness::manifest),
         ("policy", harness::policy),
         ("trials", harness::trials),
@@ -46,6 +46,8 @@ fn every_kept_crash_input_replays_cleanly() {
         // and one with markup in its verdicts, so the harness itself is exercised here.
         ("ledger", harness::ledger),
         ("base_report", harness::base_report),
+        ("predictions", harness::predictions),
+        ("ids", harness::ids),
     ];
     let replayed: usize = targets.iter().map(|(t, run)| replay(t, *run)).sum();
     // The two u64-overflow manifests (fixed in validate.rs) are kept at least.

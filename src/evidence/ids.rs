@@ -23,16 +23,16 @@ pub struct Overlap {
     pub examples: Vec<String>,
 }
 
-fn open(path: &Path, named_by: &str) -> Result<std::io::BufReader<std::fs::File>, Diagnostic> {
-    std::fs::File::open(path)
+fn open(
+    path: &Path,
+    named_by: &str,
+) -> Result<std::io::BufReader<crate::opener::Bounded<std::fs::File>>, Diagnostic> {
+    crate::opener::open(path, crate::opener::Kind::Ids)
         .map(|f| std::io::BufReader::with_capacity(1 << 20, f))
-        .map_err(|e| {
+        .map_err(|reason| {
             Diagnostic::file(
                 path.display().to_string(),
-                format!(
-                    "cannot read the id list named by {named_by}: {}",
-                    crate::input::io_reason(&e)
-                ),
+                format!("cannot read the id list named by {named_by}: {reason}"),
             )
         })
 }
@@ -51,20 +51,35 @@ fn for_each_id(
 ) -> Result<(), Diagnostic> {
     let mut reader = open(path, named_by)?;
     let mut line = Vec::new();
+    let mut number = 0u64;
     loop {
         line.clear();
+        number += 1;
         match reader.read_until(b'\n', &mut line) {
             Ok(0) => return Ok(()),
             Ok(_) => {
                 let id = clean(&line);
+                if let Some(at) = crate::evidence::control_at(id) {
+                    return Err(Diagnostic::at(
+                        &path.display().to_string(),
+                        crate::diag::Place::new(number, at as u64 + 1),
+                        "(id)",
+                        crate::evidence::CONTROL_IN_ID,
+                    ));
+                }
                 if !id.is_empty() {
                     each(id)?;
                 }
             }
             Err(e) => {
-                return Err(Diagnostic::file(
-                    path.display().to_string(),
-                    format!("cannot read: {e}"),
+                return Err(Diagnostic::at(
+                    &path.display().to_string(),
+                    crate::diag::Place {
+                        line: crate::opener::limit_line(&e),
+                        column: None,
+                    },
+                    "(line)",
+                    format!("cannot read: {}", crate::opener::read_reason(&e)),
                 ));
             }
         }

@@ -17,6 +17,17 @@ pub use read::read_predictions;
 
 use sha2::{Digest, Sha256};
 
+/// Why an id with a control character is refused: a line break or tab inside an id (possible in
+/// a quoted CSV cell) would make two different id lists hash to the same fingerprint text and
+/// show as two rows in a report.
+pub const CONTROL_IN_ID: &str =
+    "an id must not contain a line break, tab or other control character";
+
+/// The byte offset of the first control character (C0 or DEL) in `id`.
+pub fn control_at(id: &[u8]) -> Option<usize> {
+    id.iter().position(|&b| b < 0x20 || b == 0x7f)
+}
+
 /// Row ids stored back to back in one buffer.
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct IdArena {

@@ -102,13 +102,12 @@ fn parse_f64(cell: &[u8]) -> Option<f64> {
 /// Reads and checks a predictions file.
 pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Vec<Diagnostic>> {
     let file = path.display().to_string();
-    let handle = std::fs::File::open(path).map_err(|e| {
+    let handle = crate::opener::open(path, crate::opener::Kind::Predictions).map_err(|reason| {
         vec![Diagnostic::file(
             &file,
             format!(
-                "cannot read the predictions file named by {}: {}",
+                "cannot read the predictions file named by {}: {reason}",
                 expect.named_by,
-                crate::input::io_reason(&e)
             ),
         )]
     })?;
@@ -122,9 +121,12 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
     let header = match csv.byte_headers() {
         Ok(h) => h.clone(),
         Err(e) => {
-            return Err(vec![Diagnostic::file(
+            let (line, reason) = crate::opener::csv_failure(&e);
+            return Err(vec![Diagnostic::at(
                 &file,
-                format!("cannot read the header: {e}"),
+                Place { line, column: None },
+                "(header)",
+                format!("cannot read the header: {reason}"),
             )]);
         }
     };
@@ -133,6 +135,28 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
             .iter()
             .position(|h| h.trim_ascii() == name.as_bytes())
     };
+    // A column the reader uses, written twice: which one holds the data is a guess.
+    for (i, h) in header.iter().enumerate() {
+        let name = h.trim_ascii();
+        let used = matches!(
+            name,
+            b"id" | b"label" | b"prediction" | b"score" | b"target"
+        ) || name.starts_with(b"prob_");
+        if used && header.iter().take(i).any(|e| e.trim_ascii() == name) {
+            return Err(vec![
+                Diagnostic::at(
+                    &file,
+                    Place::new(1, i as u64 + 1),
+                    "(header)",
+                    format!(
+                        "the column {:?} appears twice",
+                        String::from_utf8_lossy(name)
+                    ),
+                )
+                .with_help("give every column a distinct name"),
+            ]);
+        }
+    }
     let regression = expect.task == Task::Regression;
     let required: &[&str] = if regression {
         &["id", "target", "prediction"]
@@ -347,8 +371,13 @@ fn read_rows<R: std::io::Read>(
                 row(&record, line, problems);
             }
             Err(e) => {
-                let line = e.position().map_or(0, |p| p.line());
-                problems.add(line, None, "(row)", format!("cannot read the row: {e}"));
+                let (line, reason) = crate::opener::csv_failure(&e);
+                problems.list.push(Diagnostic::at(
+                    &problems.file,
+                    Place { line, column: None },
+                    "(row)",
+                    format!("cannot read the row: {reason}"),
+                ));
                 return;
             }
         }
@@ -363,6 +392,15 @@ fn push_id(
     p: &mut Problems,
 ) -> bool {
     let id = record.get(col).unwrap_or_default().trim_ascii();
+    if super::control_at(id).is_some() {
+        p.add(
+            line,
+            Some(col as u64 + 1),
+            "id",
+            super::CONTROL_IN_ID.into(),
+        );
+        return false;
+    }
     if id.is_empty() {
         p.add(
             line,
@@ -416,6 +454,16 @@ fn class(
     p: &mut Problems,
 ) -> Option<u32> {
     let cell = record.get(col).unwrap_or_default().trim_ascii();
+    if cell.is_empty() {
+        // A blank cell is no class: read as the class "", blank labels and predictions agreed.
+        p.add(
+            line,
+            Some(col as u64 + 1),
+            what,
+            format!("expected a class in the {what} column, found an empty cell"),
+        );
+        return None;
+    }
     let index = classes.get(cell);
     if index.is_none() {
         p.add(

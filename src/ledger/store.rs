@@ -88,7 +88,17 @@ fn load(path: &Path, missing_ok: bool) -> Result<(Loaded, String), Diagnostic> {
         Ok(m) if !m.file_type().is_file() => return Err(not_regular(&shown, &m)),
         Ok(_) => {}
     }
-    let text = std::fs::read_to_string(path).map_err(|e| cannot(&e))?;
+    // Read through the one bounded opener: a regular file of at most 256 MiB, no record
+    // (entry) longer than 1 MiB.
+    let mut file = crate::opener::open(path, crate::opener::Kind::Ledger)
+        .map_err(|reason| Diagnostic::file(&shown, format!("cannot read the ledger: {reason}")))?;
+    let mut text = String::new();
+    std::io::Read::read_to_string(&mut file, &mut text).map_err(|e| {
+        Diagnostic::file(
+            &shown,
+            format!("cannot read the ledger: {}", crate::opener::read_reason(&e)),
+        )
+    })?;
     let entries = verify(&text).map_err(|b| {
         Diagnostic::at(
             &shown,
@@ -109,12 +119,18 @@ fn load(path: &Path, missing_ok: bool) -> Result<(Loaded, String), Diagnostic> {
 }
 
 fn not_regular(shown: &str, metadata: &std::fs::Metadata) -> Diagnostic {
+    #[cfg(unix)]
+    let fifo = std::os::unix::fs::FileTypeExt::is_fifo(&metadata.file_type());
+    #[cfg(not(unix))]
+    let fifo = false;
     let kind = if metadata.file_type().is_symlink() {
         "a symbolic link"
     } else if metadata.is_dir() {
         "a directory"
+    } else if fifo {
+        "a named pipe (FIFO)"
     } else {
-        "a device, pipe or socket"
+        "a device or socket"
     };
     Diagnostic::file(
         shown,

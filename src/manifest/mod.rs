@@ -253,10 +253,19 @@ pub struct Baseline {
     pub cv_fold_scores: Option<Vec<f64>>,
 }
 
-/// Reads and validates one manifest file; the files it names must lie inside `root`.
+/// Reads and validates one manifest file (`-` is standard input, named
+/// [`crate::opener::STDIN_NAME`]); the files it names must lie inside `root`.
 pub fn load(path: &Path, root: &Path) -> Result<Vec<Model>, Vec<Diagnostic>> {
-    let file = path.display().to_string();
-    let text = input::read_text(path).map_err(|d| vec![d])?;
+    let stdin = path == Path::new("-");
+    let (file, text) = if stdin {
+        let text = crate::opener::read_text(None, crate::opener::Kind::StdinManifest)
+            .map_err(|d| vec![d])?;
+        (crate::opener::STDIN_NAME.to_owned(), text)
+    } else {
+        let text = crate::opener::read_text(Some(path), crate::opener::Kind::Manifest)
+            .map_err(|d| vec![d])?;
+        (path.display().to_string(), text)
+    };
     let raw: raw::RawManifest =
         input::parse(&file, &text, Syntax::detect(path, &text)).map_err(|d| vec![d])?;
     validate(&file, raw, root)

@@ -24,18 +24,11 @@ use serde::Deserialize;
 
 use super::Metric;
 use crate::diag::{Diagnostic, Place};
+use crate::opener::Kind;
 use crate::stats::{BiasEstimate, Bin, Histogram, SelectionBias};
 
 /// Display bins of the trial-score histogram.
 pub const HISTOGRAM_BINS: usize = 16;
-
-/// Largest trials file read, in bytes: about ten million trials of ten folds. The file is
-/// streamed, so memory stays small, but reading is bounded in time as well.
-pub const MAX_TRIALS_BYTES: u64 = 1 << 30;
-
-/// Largest scikit-learn results file in pandas' JSON form, in bytes. That form cannot be read
-/// row by row, so the whole document is held in memory (several times its size as parsed values).
-pub const MAX_CV_RESULTS_JSON_BYTES: u64 = 256 << 20;
 
 /// Most problems reported from one trials source before giving up on it.
 const MAX_PROBLEMS: usize = 20;
@@ -399,10 +392,11 @@ impl<'a> TrialReader<'a> {
         let header = match csv.headers() {
             Ok(h) => h.clone(),
             Err(e) => {
+                let (line, reason) = crate::opener::csv_failure(&e);
                 self.problem(
-                    Place::new(1, 1),
+                    Place::new(line.unwrap_or(1), 1),
                     "(header)".into(),
-                    format!("cannot read the CSV header: {e}"),
+                    format!("cannot read the CSV header: {reason}"),
                 );
                 return;
             }
@@ -497,14 +491,11 @@ impl<'a> TrialReader<'a> {
         match csv.read_record(record) {
             Ok(more) => more,
             Err(e) => {
-                let line = e.position().map(|p| p.line()).unwrap_or(0);
+                let (line, reason) = crate::opener::csv_failure(&e);
                 self.problem(
-                    Place {
-                        line: Some(line),
-                        column: None,
-                    },
+                    Place { line, column: None },
                     "(row)".into(),
-                    format!("cannot read the row: {e}"),
+                    format!("cannot read the row: {reason}"),
                 );
                 false
             }
@@ -678,11 +669,11 @@ impl<'a> TrialReader<'a> {
                 Err(e) => {
                     self.problem(
                         Place {
-                            line: Some(number),
+                            line: Some(crate::opener::limit_line(&e).unwrap_or(number)),
                             column: None,
                         },
                         "(line)".into(),
-                        format!("cannot read: {e}"),
+                        format!("cannot read: {}", crate::opener::read_reason(&e)),
                     );
                     return;
                 }
@@ -774,83 +765,20 @@ pub fn read_file(
             format!("cannot read the trials file named by {named_by}: {reason}"),
         )]
     };
-    let file = std::fs::File::open(path).map_err(|e| refuse(crate::input::io_reason(&e)))?;
-    // A directory, device or pipe would fail late, never end (`/dev/zero`) or wait for a
-    // writer; only a regular file of bounded size is read.
-    let metadata = file
-        .metadata()
-        .map_err(|e| refuse(crate::input::io_reason(&e)))?;
-    if metadata.is_dir() {
-        return Err(refuse("it is a directory".to_owned()));
-    }
-    if !metadata.is_file() {
-        return Err(refuse("it is not a regular file".to_owned()));
-    }
-    if metadata.len() > MAX_TRIALS_BYTES {
-        return Err(refuse(format!(
-            "it is {} bytes; the limit is {MAX_TRIALS_BYTES} bytes",
-            metadata.len()
-        )));
-    }
-    let json = path.extension().and_then(|e| e.to_str()) == Some("json");
-    if json && metadata.len() > MAX_CV_RESULTS_JSON_BYTES {
-        return Err(refuse(format!(
-            "it is {} bytes; a JSON results file is read whole and may hold at most {MAX_CV_RESULTS_JSON_BYTES} bytes (write it with to_csv, which is streamed)",
-            metadata.len()
-        )));
-    }
+    let kind = match path.extension().and_then(|e| e.to_str()) {
+        Some("json") => Kind::TrialsResultsJson,
+        Some("jsonl" | "ndjson") => Kind::TrialsJsonl,
+        _ => Kind::TrialsCsv,
+    };
+    let file = crate::opener::open(path, kind).map_err(refuse)?;
     let mut reader = TrialReader::new(&shown, metric, folds)
         .select(selected)
         .scorer(scorer);
-    let file = LineLimit::new(file);
-    match path.extension().and_then(|e| e.to_str()) {
-        // pandas writes the whole document on one line, so no line limit applies; the size
-        // limit bounds it.
-        Some("json") => reader.read_cv_results_json(std::io::BufReader::with_capacity(
-            1 << 16,
-            file.into_inner(),
-        )),
-        Some("jsonl" | "ndjson") => {
-            reader.read_jsonl(std::io::BufReader::with_capacity(1 << 16, file))
-        }
-        _ => reader.read_csv(std::io::BufReader::with_capacity(1 << 16, file)),
+    let buffered = std::io::BufReader::with_capacity(1 << 16, file);
+    match kind {
+        Kind::TrialsResultsJson => reader.read_cv_results_json(buffered),
+        Kind::TrialsJsonl => reader.read_jsonl(buffered),
+        _ => reader.read_csv(buffered),
     }
     reader.finish()
-}
-
-/// Longest line of a trials file, in bytes. A trial is one short line; the CSV and JSON Lines
-/// readers hold a whole line in memory, so a file without line breaks must not become one huge
-/// allocation.
-pub const MAX_LINE_BYTES: usize = 1 << 20;
-
-/// A reader that fails with `InvalidData` once a line runs longer than [`MAX_LINE_BYTES`].
-struct LineLimit<R> {
-    inner: R,
-    line: usize,
-}
-
-impl<R> LineLimit<R> {
-    fn new(inner: R) -> Self {
-        LineLimit { inner, line: 0 }
-    }
-
-    fn into_inner(self) -> R {
-        self.inner
-    }
-}
-
-impl<R: std::io::Read> std::io::Read for LineLimit<R> {
-    fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
-        let n = self.inner.read(buf)?;
-        for &b in &buf[..n] {
-            self.line = if b == b'\n' { 0 } else { self.line + 1 };
-            if self.line > MAX_LINE_BYTES {
-                return Err(std::io::Error::new(
-                    std::io::ErrorKind::InvalidData,
-                    format!("a line is longer than {MAX_LINE_BYTES} bytes"),
-                ));
-            }
-        }
-        Ok(n)
-    }
 }

@@ -213,7 +213,8 @@ impl Policy {
     /// Reads and validates a policy file.
     pub fn load(path: &Path) -> Result<Policy, Vec<Diagnostic>> {
         let file = path.display().to_string();
-        let text = input::read_text(path).map_err(|d| vec![d])?;
+        let text = crate::opener::read_text(Some(path), crate::opener::Kind::Policy)
+            .map_err(|d| vec![d])?;
         let raw: RawPolicy =
             input::parse(&file, &text, Syntax::detect(path, &text)).map_err(|d| vec![d])?;
         let digest = hex(&Sha256::digest(text.as_bytes()));

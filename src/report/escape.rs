@@ -9,22 +9,49 @@
 /// Longest untrusted string kept in a report, in characters; longer ones are cut with an ellipsis.
 pub const MAX_CHARS: usize = 200;
 
+/// Whether the word starting at `rest` looks like a commit id GitHub would link: 7 to 40 hex
+/// digits, at least one of them a digit, not followed by another word character.
+fn looks_like_commit(rest: &str) -> bool {
+    let hex = rest.bytes().take_while(u8::is_ascii_hexdigit).count();
+    let next = rest[hex..].chars().next();
+    (7..=40).contains(&hex)
+        && rest[..hex].bytes().any(|b| b.is_ascii_digit())
+        && !next.is_some_and(|c| c.is_alphanumeric() || c == '_')
+}
+
 /// Escapes `text` for use inline in Markdown (paragraphs, list items and table cells).
+///
+/// GitHub links `#123` and commit ids after Markdown is parsed, so escaping `#` does not stop
+/// them: a zero-width joiner follows `#`, and splits a word that looks like a commit id after
+/// its first character. Bidirectional and invisible characters are written visibly (`<U+202E>`).
 pub fn markdown(text: &str) -> String {
     let mut out = String::with_capacity(text.len() + 8);
-    for (count, c) in text.chars().enumerate() {
+    let mut previous: Option<char> = None;
+    for (count, (i, c)) in text.char_indices().enumerate() {
         if count == MAX_CHARS {
             out.push('…');
             break;
         }
+        let word_start = !previous.is_some_and(|p| p.is_alphanumeric() || p == '_');
+        previous = Some(c);
+        if word_start && c.is_ascii_hexdigit() && looks_like_commit(&text[i..]) {
+            out.push(c);
+            out.push('\u{200d}');
+            continue;
+        }
+        if crate::console::is_deceptive(c) {
+            out.push_str(&markdown(&crate::console::visible(c)));
+            continue;
+        }
         match c {
+            '#' => out.push_str("\\#\u{200d}"),
             '<' => out.push_str("&lt;"),
             '>' => out.push_str("&gt;"),
             '&' => out.push_str("&amp;"),
             // A zero-width joiner keeps the text readable while breaking @-mentions.
             '@' => out.push_str("@\u{200d}"),
-            '\\' | '`' | '*' | '_' | '{' | '}' | '[' | ']' | '(' | ')' | '#' | '+' | '-' | '.'
-            | '!' | '|' | '~' | ':' | '"' | '\'' | '=' | '$' | '%' | '^' => {
+            '\\' | '`' | '*' | '_' | '{' | '}' | '[' | ']' | '(' | ')' | '+' | '-' | '.' | '!'
+            | '|' | '~' | ':' | '"' | '\'' | '=' | '$' | '%' | '^' => {
                 out.push('\\');
                 out.push(c);
             }
@@ -60,6 +87,17 @@ mod tests {
         assert_eq!(markdown("@team"), "@\u{200d}team");
         assert_eq!(markdown("a|b\nc"), "a\\|b c");
         assert_eq!(markdown("`x`"), "\\`x\\`");
+    }
+
+    #[test]
+    fn references_and_commit_ids_do_not_link() {
+        assert_eq!(markdown("#123"), "\\#\u{200d}123");
+        assert_eq!(markdown("at 9d03e5a."), "at 9\u{200d}d03e5a\\.");
+        // Not a commit id: too short, no digit, or part of a longer word.
+        assert_eq!(markdown("abc123"), "abc123");
+        assert_eq!(markdown("deadbeef"), "deadbeef");
+        assert_eq!(markdown("x9d03e5a"), "x9d03e5a");
+        assert_eq!(markdown("a\u{202e}b"), "a&lt;U\\+202E&gt;b");
     }
 
     #[test]

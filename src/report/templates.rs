@@ -57,8 +57,8 @@ impl Templates {
         for (name, source) in templates.sources.iter_mut() {
             let path = dir.join(name);
             if path.exists() {
-                *source = std::fs::read_to_string(&path)
-                    .with_context(|| format!("cannot read template {}", path.display()))?;
+                *source = crate::opener::read_text(Some(&path), crate::opener::Kind::Template)
+                    .map_err(|d| anyhow::anyhow!("{d}"))?;
             }
         }
         Ok(templates)

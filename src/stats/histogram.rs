@@ -12,6 +12,11 @@
 /// Fine bins kept while streaming.
 const FINE_BINS: usize = 1024;
 
+/// Most doublings of the range for one value. Each doubles the width, and the width is at least
+/// `f64::MIN_POSITIVE` (2.2e-308), so about 2,050 of them pass any finite value; the cap only
+/// guards against a width that stops growing (it did, at 0, when the bin width underflowed).
+const MAX_GROWS: u32 = 2_100;
+
 /// Streaming histogram of finite values.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Histogram {
@@ -72,13 +77,22 @@ impl Histogram {
     }
 
     fn fix_range(&mut self) {
-        let span = self.max - self.min;
+        let bins = FINE_BINS as f64;
+        // Divided first so that the span of ±1e308 does not overflow.
+        let span = self.max / bins - self.min / bins;
         self.lo = self.min;
-        // A range a little wider than the data keeps the maximum inside the last bin.
-        self.width = if span > 0.0 {
-            span * (1.0 + 1e-9) / FINE_BINS as f64
+        // A range a little wider than the data keeps the maximum inside the last bin. A span of
+        // a few subnormals (0 and 5e-324) would give a width of 0, which no doubling can widen:
+        // the width is kept a normal positive number.
+        let width = if span > 0.0 {
+            span * (1.0 + 1e-9)
         } else {
             f64::EPSILON.max(self.min.abs() * 1e-12)
+        };
+        self.width = if width.is_finite() {
+            width.max(f64::MIN_POSITIVE)
+        } else {
+            f64::MAX / bins
         };
         self.counts = vec![0; FINE_BINS];
         for x in std::mem::take(&mut self.pending) {
@@ -87,12 +101,17 @@ impl Histogram {
     }
 
     fn count(&mut self, x: f64) {
-        while x < self.lo {
+        let mut grows = 0;
+        while x < self.lo && grows < MAX_GROWS {
             self.grow(false);
+            grows += 1;
         }
-        while x >= self.lo + self.width * FINE_BINS as f64 {
+        while x >= self.lo + self.width * FINE_BINS as f64 && grows < MAX_GROWS {
             self.grow(true);
+            grows += 1;
         }
+        // After the cap (never reached with a positive width) the value lands in an edge bin;
+        // a NaN quotient converts to bin 0.
         let i = (((x - self.lo) / self.width) as usize).min(FINE_BINS - 1);
         self.counts[i] += 1;
     }
@@ -153,6 +172,22 @@ impl Histogram {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn a_subnormal_span_does_not_hang() {
+        // 1,023 zeros and one 5e-324 (the smallest subnormal): the fine-bin width used to
+        // underflow to 0 and `count` doubled it forever. Afterwards: every value counted once.
+        let mut h = Histogram::default();
+        for _ in 0..1023 {
+            h.push(0.0);
+        }
+        h.push(5e-324);
+        h.push(1e-300);
+        h.push(-1e308);
+        h.push(1e308);
+        assert_eq!(h.total(), 1027);
+        assert_eq!(h.bins(16).iter().map(|b| b.count).sum::<u64>(), 1027);
+    }
 
     #[test]
     fn small_inputs_are_binned_exactly() {

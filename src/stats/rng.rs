@@ -147,8 +147,9 @@ impl Rng {
                     return Ok(x);
                 }
                 u -= f;
-                if x == n {
-                    // The pmf summed to slightly less than u through round-off: draw again.
+                if x == n || f <= 0.0 {
+                    // The pmf summed to slightly less than u through round-off, or it underflowed
+                    // past the mode (every later term is 0 too, and n can be 1e18): draw again.
                     break;
                 }
                 x += 1;

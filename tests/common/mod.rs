@@ -20,9 +20,103 @@ pub fn vetscore(args: &[&str]) -> Output {
         .args(args)
         .current_dir(root())
         .env_remove("GITHUB_STEP_SUMMARY")
+        .env_remove("GITHUB_ACTIONS")
         .env_remove("NO_COLOR")
         .output()
         .unwrap()
+}
+
+/// How a run under [`run_bounded`] ended.
+#[derive(Debug)]
+pub struct Bounded {
+    /// `None` when the run was killed at the time limit (or died by a signal).
+    pub code: Option<i32>,
+    pub stdout: String,
+    pub stderr: String,
+    /// Peak resident memory in KiB (VmHWM from /proc, polled every 10 ms; 0 where /proc is
+    /// missing). A lower bound: growth in the last few milliseconds before exit can be missed.
+    pub peak_kib: u64,
+    pub elapsed: std::time::Duration,
+}
+
+/// Runs `vetscore` in `dir` with `args` and `stdin` (nothing when `None`), killing it after
+/// `limit`. The limit is a hang detector, never a timing assertion: it is far above any
+/// expected run time.
+pub fn run_bounded(
+    dir: &Path,
+    args: &[&str],
+    stdin: Option<std::process::Stdio>,
+    envs: &[(&str, &str)],
+    limit: std::time::Duration,
+) -> Bounded {
+    use std::io::Read as _;
+    let mut command = Command::new(env!("CARGO_BIN_EXE_vetscore"));
+    command
+        .args(args)
+        .current_dir(dir)
+        .env_remove("GITHUB_STEP_SUMMARY")
+        .env_remove("GITHUB_ACTIONS")
+        .env_remove("NO_COLOR")
+        .stdin(stdin.unwrap_or_else(std::process::Stdio::null))
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped());
+    for (k, v) in envs {
+        command.env(k, v);
+    }
+    let start = std::time::Instant::now();
+    let mut child = command.spawn().unwrap();
+    let mut out_pipe = child.stdout.take().unwrap();
+    let mut err_pipe = child.stderr.take().unwrap();
+    let out_thread = std::thread::spawn(move || {
+        let mut s = Vec::new();
+        let _ = out_pipe.read_to_end(&mut s);
+        s
+    });
+    let err_thread = std::thread::spawn(move || {
+        let mut s = Vec::new();
+        let _ = err_pipe.read_to_end(&mut s);
+        s
+    });
+    let status_file = format!("/proc/{}/status", child.id());
+    let mut peak_kib = 0;
+    let status = loop {
+        if let Some(status) = child.try_wait().unwrap() {
+            break Some(status);
+        }
+        if let Ok(text) = std::fs::read_to_string(&status_file)
+            && let Some(line) = text.lines().find(|l| l.starts_with("VmHWM:"))
+        {
+            let kib: u64 = line
+                .split_whitespace()
+                .nth(1)
+                .and_then(|v| v.parse().ok())
+                .unwrap_or(0);
+            peak_kib = peak_kib.max(kib);
+        }
+        if start.elapsed() > limit {
+            let _ = child.kill();
+            let _ = child.wait();
+            break None;
+        }
+        std::thread::sleep(std::time::Duration::from_millis(10));
+    };
+    let elapsed = start.elapsed();
+    Bounded {
+        code: status.and_then(|s| s.code()),
+        stdout: String::from_utf8_lossy(&out_thread.join().unwrap()).into_owned(),
+        stderr: String::from_utf8_lossy(&err_thread.join().unwrap()).into_owned(),
+        peak_kib,
+        elapsed,
+    }
+}
+
+/// Whether a CI runner would read `line` as a workflow command: GitHub's `::` after leading
+/// whitespace (its runner trims with .NET `TrimStart`, Unicode whitespace), or `##[` / Azure's
+/// `##vso[` anywhere in the line (both runners' documented logging-command syntax).
+pub fn is_workflow_command(line: &str) -> bool {
+    line.trim_start().starts_with("::")
+        || line.contains("##[")
+        || line.to_ascii_lowercase().contains("##vso[")
 }
 
 pub fn stderr(output: &Output) -> String {

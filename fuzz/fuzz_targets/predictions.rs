@@ -1,0 +1,7 @@
+//! Fuzz target: see `harness::predictions`.
+#![no_main]
+
+#[path = "../harness.rs"]
+mod harness;
+
+libfuzzer_sys::fuzz_target!(|data: &[u8]| harness::predictions(data));
