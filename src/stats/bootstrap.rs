@@ -39,7 +39,7 @@ pub enum RegressionStatistic {
     Rmse,
 }
 
-fn check_resamples(resamples: u32) -> Result<()> {
+pub(super) fn check_resamples(resamples: u32) -> Result<()> {
     if !(MIN_RESAMPLES..=MAX_RESAMPLES).contains(&resamples) {
         return Err(StatsError::CountOutOfRange {
             name: "resamples",
@@ -65,7 +65,7 @@ fn quantile_sorted(values: &[f64], q: f64) -> f64 {
 
 /// Percentile interval (Efron 1979, Ann. Stat. 7:1–26; Efron & Tibshirani 1993 ch. 13): the α/2
 /// and 1 − α/2 quantiles of the bootstrap replicates.
-fn percentile_interval(mut values: Vec<f64>, confidence: f64) -> Interval {
+pub(super) fn percentile_interval(mut values: Vec<f64>, confidence: f64) -> Interval {
     values.sort_unstable_by(f64::total_cmp);
     let alpha = 1.0 - confidence;
     Interval {

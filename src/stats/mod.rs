@@ -20,9 +20,11 @@
 //! `tests/stats_reference.rs` (published examples) and `tests/reference/stats_values.json`
 //! (scipy / statsmodels, written by `tests/reference/generate.py`).
 
+mod bbc;
 mod binomial;
 mod bootstrap;
 mod delong;
+mod effective_configurations;
 mod error;
 mod extremes;
 mod histogram;
@@ -40,6 +42,9 @@ mod selection;
 mod sign_flip;
 mod special;
 
+pub use bbc::{
+    BbcEstimate, CorrectnessMatrix, Direction, MAX_WORK, OofResults, RowValueMatrix, bbc_cv,
+};
 pub use binomial::{best_of_n_tail, binomial_sf_ge};
 pub use bootstrap::{
     DEFAULT_RESAMPLES, PairedBootstrap, RegressionStatistic, bootstrap_confusion,
@@ -47,6 +52,10 @@ pub use bootstrap::{
 };
 pub use delong::{
     AucEstimate, PairedAuc, auc_score_interval, roc_auc_delong, roc_auc_delong_paired,
+};
+pub use effective_configurations::{
+    EffectiveConfigurations, MAX_EIGEN_DIMENSION, effective_configurations,
+    effective_configurations_of_correctness,
 };
 pub use error::{Result, StatsError};
 pub use extremes::{blom_expected_max, expected_max_normal};
