@@ -39,7 +39,10 @@ pub struct Estimate {
     pub rows: u64,
     /// Correct rows, for proportion metrics.
     pub correct: Option<u64>,
-    /// Standard error of the estimate: √(p(1−p)/n) for a proportion, s/√k over k folds.
+    /// Standard error of the estimate. For a proportion the Agresti–Coull form
+    /// √(p̃(1−p̃)/(n + z²)), which stays positive at 0/n and n/n (see
+    /// [`stats::agresti_coull_std_error`]); s/√k over k folds otherwise, floored for metrics
+    /// bounded to [0, 1] (see [`fold_mean`]).
     pub std_error: Option<f64>,
 }
 
@@ -69,7 +72,13 @@ fn pooled_proportion(cv: &CrossValidation, settings: IntervalSettings) -> Estima
         },
         rows,
         correct: Some(count),
-        std_error: Some((value * (1.0 - value) / rows as f64).sqrt()),
+        // The mean count per repeat: exact without repeats, and never rounded with them.
+        std_error: stats::agresti_coull_std_error(
+            correct as f64 / f64::from(cv.repeats.max(1)),
+            rows,
+            settings.confidence,
+        )
+        .ok(),
     }
 }
 
@@ -150,10 +159,12 @@ pub fn evaluation_estimate(evaluation: &Evaluation, settings: IntervalSettings) 
             },
             rows: evaluation.rows,
             correct: Some(correct),
-            std_error: Some(
-                (correct as f64 * (evaluation.rows - correct) as f64).sqrt()
-                    / (evaluation.rows as f64).powf(1.5),
-            ),
+            std_error: stats::agresti_coull_std_error(
+                correct as f64,
+                evaluation.rows,
+                settings.confidence,
+            )
+            .ok(),
         },
         None => Estimate {
             value: evaluation.score,

@@ -103,8 +103,8 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
             evidence,
         );
     }
-    let inside = interval.contains(claim.value);
-    let higher = claim.value > interval.upper;
+    let inside = super::threshold::inside(interval, claim.value);
+    let higher = !super::threshold::at_most(claim.value, interval.upper);
     let overstates = if subject.model.metric.higher_is_better() {
         higher
     } else {

@@ -59,7 +59,7 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
             Quantity::Score,
         ),
     ];
-    let within_bound = gap.abs() <= settings.max_gap;
+    let within_bound = super::threshold::at_most(gap.abs(), settings.max_gap);
     let noise = match (cv.correct, test.correct) {
         (Some(x1), Some(x2)) => {
             let interval =
@@ -85,7 +85,12 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
                         z.p_value,
                         Quantity::Probability,
                     ));
-                    Some(!interval.contains(0.0))
+                    // One decision: beyond noise when either approximation says so. They
+                    // disagree only near the boundary (16/20 against 20/20: the interval
+                    // touches 0 while p = 0.035), and there the gate fails closed.
+                    let alpha = 1.0 - ctx.intervals.confidence;
+                    let significant = !super::threshold::at_least(z.p_value, alpha);
+                    Some(!super::threshold::inside(interval, 0.0) || significant)
                 }
                 _ => None,
             }

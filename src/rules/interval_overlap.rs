@@ -46,7 +46,7 @@ fn check(subject: &Subject, ctx: &Context, _settings: &RuleSettings) -> Outcome 
         ),
     ];
     Outcome::judge(
-        cv.overlaps(&test),
+        super::threshold::overlap(cv, test),
         "The CV interval {cv_interval} and the test interval {test_interval} overlap.",
         "The CV interval {cv_interval} and the test interval {test_interval} do not overlap: \
          the two estimates disagree beyond their uncertainty.",

@@ -29,6 +29,7 @@ pub mod policy_change;
 pub mod recompute;
 pub mod selection_optimism;
 pub mod test_split;
+pub mod threshold;
 pub mod waiver_expiry;
 
 /// Severity as written in a policy file.

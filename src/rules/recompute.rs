@@ -95,7 +95,7 @@ fn check(subject: &Subject, _ctx: &Context, settings: &RuleSettings) -> Outcome 
         );
     }
     Outcome::judge(
-        (r.value - reported.score).abs() <= tolerance,
+        super::threshold::at_most((r.value - reported.score).abs(), tolerance),
         "Recomputed from {rows} predictions, the score is {recomputed}, matching the reported \
          {reported}.",
         "Recomputed from {rows} predictions, the score is {recomputed}, not the reported \

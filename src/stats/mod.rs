@@ -36,7 +36,7 @@ mod sample_size;
 mod selection;
 mod special;
 
-pub use binomial::{best_of_n_tail, binomial_sf_ge};
+pub use binomial::{best_of_n_tail, best_of_n_tail_count, binomial_sf_ge};
 pub use bootstrap::{
     DEFAULT_RESAMPLES, PairedBootstrap, RegressionStatistic, bootstrap_confusion,
     bootstrap_paired_confusion, bootstrap_rows,
@@ -53,8 +53,8 @@ pub use paired::{
     mcnemar_chi2, mcnemar_exact, paired_accuracy_difference,
 };
 pub use proportion::{
-    Interval, ProportionMethod, ZTest, newcombe_difference, proportion_interval,
-    two_proportion_z_test,
+    Interval, ProportionMethod, ZTest, agresti_coull_std_error, newcombe_difference,
+    proportion_interval, two_proportion_z_test,
 };
 pub use rounding::{ceil_product, count_from_proportion};
 pub use sample_size::{

@@ -40,6 +40,19 @@ impl Interval {
         self.lower <= x && x <= self.upper
     }
 
+    /// The interval clipped to [lo, hi] (a metric's range); NaN bounds stay NaN.
+    pub fn clamp_to(&self, (lo, hi): (f64, f64)) -> Interval {
+        Interval {
+            lower: self.lower.max(lo).min(hi),
+            upper: self.upper.min(hi).max(lo),
+        }
+    }
+
+    /// Whether clipping to [lo, hi] would change the interval.
+    pub fn leaves(&self, (lo, hi): (f64, f64)) -> bool {
+        self.lower < lo || self.upper > hi
+    }
+
     /// Whether the two closed intervals share at least one point.
     pub fn overlaps(&self, other: &Interval) -> bool {
         self.lower <= other.upper && other.lower <= self.upper
@@ -155,6 +168,35 @@ pub fn proportion_interval(
     }
 }
 
+/// Standard error of a proportion that stays positive at x = 0 and x = n: the Agresti–Coull
+/// (1998, Am. Stat. 52:119–126) form √(p̃(1 − p̃)/ñ) with ñ = n + z², p̃ = (x + z²/2)/ñ, z the
+/// two-sided normal quantile at `confidence` (half the width of their adjusted Wald interval,
+/// before clipping, divided by z).
+///
+/// Why: the plug-in √(p̂(1 − p̂)/n) is 0 at p̂ = 0 or 1, so anything scaled by it (the expected
+/// optimism of a search, the rows a margin needs) would claim perfect precision exactly where
+/// the data say least: 20/20 and 2000/2000 would look equally certain. The Agresti–Coull centre
+/// p̃ is the Wilson interval's midpoint, so this standard error agrees with the score interval's
+/// width; for 0 < p̂ < 1 and large n it tends to the plug-in value. `successes` may be
+/// fractional (an average count over repeated cross-validation).
+/// Errors: trials = 0; successes outside [0, trials] or not finite; confidence not in (0, 1).
+pub fn agresti_coull_std_error(successes: f64, trials: u64, confidence: f64) -> Result<f64> {
+    check_unit_open("confidence", confidence)?;
+    super::error::check_nonzero("trials", trials)?;
+    let n = trials as f64;
+    if !(successes.is_finite() && (0.0..=n).contains(&successes)) {
+        return Err(super::error::StatsError::OutOfRange {
+            name: "successes",
+            value: successes,
+            expected: "a count between 0 and the trials",
+        });
+    }
+    let z = z_two_sided(confidence)?;
+    let n_tilde = n + z * z;
+    let p_tilde = (successes + 0.5 * z * z) / n_tilde;
+    Ok((p_tilde * (1.0 - p_tilde) / n_tilde).sqrt())
+}
+
 /// Newcombe (1998b) hybrid score interval for p₁ − p₂ (his method 10), Stat. Med. 17:873–890.
 ///
 /// With Wilson limits (l₁, u₁) for p̂₁ and (l₂, u₂) for p̂₂ at the same confidence:
@@ -243,6 +285,28 @@ mod tests {
         assert_eq!(json, "\"clopper_pearson\"");
         let back: ProportionMethod = serde_json::from_str("\"agresti_coull\"").unwrap();
         assert_eq!(back, ProportionMethod::AgrestiCoull);
+    }
+
+    #[test]
+    fn agresti_coull_standard_error_stays_positive_at_the_boundary() {
+        // statsmodels 0.15.0 proportion_confint(x, n, method='agresti_coull'): the unclipped
+        // half-width over z (tests/reference/edges.py).
+        for (x, n, se) in [
+            (60.0, 60, 0.0213794693),
+            (20.0, 20, 0.0557392801),
+            (200.0, 200, 0.0067668222),
+            (16.0, 20, 0.0884842979),
+            (344.0, 400, 0.0174417056),
+        ] {
+            let got = agresti_coull_std_error(x, n, 0.95).unwrap();
+            assert!((got - se).abs() < 1e-9, "{x}/{n}: {got}");
+        }
+        // Symmetric in x and n − x (Agresti & Coull 1998, the interval is symmetric).
+        let a = agresti_coull_std_error(0.0, 20, 0.95).unwrap();
+        assert!((a - 0.0557392801).abs() < 1e-9);
+        assert!(agresti_coull_std_error(21.0, 20, 0.95).is_err());
+        assert!(agresti_coull_std_error(f64::NAN, 20, 0.95).is_err());
+        assert!(agresti_coull_std_error(1.0, 0, 0.95).is_err());
     }
 
     #[test]
