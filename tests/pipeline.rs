@@ -279,3 +279,60 @@ fn the_readme_merge_request_story_holds() {
     );
     assert!(junit.exists());
 }
+
+/// Issue 9, item 11: each finding names the line of its own rule's block, in a block-style YAML
+/// policy, a JSON policy and an override, not the line of the first block under `rules:`.
+#[test]
+fn each_finding_names_its_own_rules_policy_line() {
+    let dir = tempfile::tempdir().unwrap();
+    let yaml = dir.path().join("policy.yaml");
+    std::fs::write(
+        &yaml,
+        "format_version: 1\nrules:\n  holdout_budget:\n    max_evaluations: 3\n  cv_test_gap:\n    max_gap: 0.05\n  fold_size: {min_rows: 30}\noverrides:\n  - models: [\"*\"]\n    rules:\n      claim_support:\n        min_rows: 30\n",
+    )
+    .unwrap();
+    let json = dir.path().join("policy.json");
+    std::fs::write(
+        &json,
+        "{\n  \"format_version\": 1,\n  \"rules\": {\n    \"holdout_budget\": {\"max_evaluations\": 3},\n    \"cv_test_gap\": {\n      \"max_gap\": 0.05\n    }\n  }\n}\n",
+    )
+    .unwrap();
+    let manifest = "fixtures/scenarios/gap-over-bound/manifest.yaml";
+    let lines = |policy: &std::path::Path| {
+        let out = dir.path().join("report.json");
+        vetscore(&[
+            "check",
+            "--policy",
+            policy.to_str().unwrap(),
+            "--today",
+            "2026-12-01",
+            "--json",
+            out.to_str().unwrap(),
+            manifest,
+        ]);
+        let report = common::Report::read(&out);
+        let model = &report.models[0];
+        let line = |rule: &str| {
+            let p = &model.finding(rule).policy;
+            (p["path"].as_str().unwrap().to_owned(), p["line"].as_u64())
+        };
+        (
+            line("holdout_budget"),
+            line("cv_test_gap"),
+            line("fold_size"),
+            line("claim_support"),
+        )
+    };
+    // Counted in the texts above: the key of each block.
+    let (budget, gap, fold, claim) = lines(&yaml);
+    assert_eq!(budget, ("rules.holdout_budget".to_owned(), Some(3)));
+    assert_eq!(gap, ("rules.cv_test_gap".to_owned(), Some(5)));
+    assert_eq!(fold, ("rules.fold_size".to_owned(), Some(7)));
+    assert_eq!(
+        claim,
+        ("overrides[0].rules.claim_support".to_owned(), Some(11))
+    );
+    let (budget, gap, _, _) = lines(&json);
+    assert_eq!(budget, ("rules.holdout_budget".to_owned(), Some(4)));
+    assert_eq!(gap, ("rules.cv_test_gap".to_owned(), Some(5)));
+}
