@@ -9,7 +9,7 @@
 use schemars::JsonSchema;
 use serde::Serialize;
 
-use crate::manifest::{CrossValidation, Evaluation, Model};
+use crate::manifest::{CrossValidation, Evaluation, Metric, Model};
 pub use crate::stats::IntervalSettings;
 use crate::stats::{self, Interval, ProportionMethod};
 
@@ -20,7 +20,14 @@ pub enum IntervalBasis {
     /// A binomial interval on a count of correct rows.
     Proportion { method: ProportionMethod },
     /// A Student-t interval over per-fold scores.
-    FoldMean { folds: usize },
+    FoldMean {
+        folds: usize,
+        /// The standard error was raised to the floor for metrics bounded to [0, 1] (the fold
+        /// scores barely vary, or not at all).
+        floored: bool,
+        /// The t interval reached past the metric's range and was clipped to it.
+        clipped: bool,
+    },
     /// Recomputed from the per-example predictions.
     Predictions {
         method: crate::evidence::metric::Method,
@@ -52,7 +59,7 @@ pub fn cv_estimate(model: &Model, settings: IntervalSettings) -> Option<Estimate
     Some(if model.metric.is_proportion() {
         pooled_proportion(cv, settings)
     } else {
-        fold_mean(cv, settings.confidence)
+        fold_mean(cv, model.metric, settings.confidence)
     })
 }
 
@@ -82,15 +89,48 @@ fn pooled_proportion(cv: &CrossValidation, settings: IntervalSettings) -> Estima
     }
 }
 
-fn fold_mean(cv: &CrossValidation, confidence: f64) -> Estimate {
+/// The mean of the fold scores with a Student-t interval, kept inside the metric's range.
+///
+/// For metrics bounded to [0, 1] (F1, ROC AUC, balanced accuracy) the standard error is at least
+/// the Agresti–Coull standard error of a proportion at the same value on the same distinct rows
+/// ([`stats::agresti_coull_std_error`]): folds that agree exactly (every fold AUC 1.0) give
+/// s = 0, and an interval of zero width would call a score on a few hundred rows exact. The
+/// floor is the sampling error of a row-level proportion at that value — the order of these
+/// metrics' own sampling error on the same rows (common practice, no source) — and is stated in
+/// the estimate's basis (`floored`). The interval is then clipped to the metric's range
+/// (`clipped`): a t interval is symmetric and can reach past 1 or below 0.
+fn fold_mean(cv: &CrossValidation, metric: Metric, confidence: f64) -> Estimate {
     let scores: Vec<f64> = cv.folds.iter().map(|f| f.score).collect();
     let rows = cv.distinct_rows();
-    match stats::mean_t_interval(&scores, confidence) {
-        Ok(m) => Estimate {
+    let range = metric.range();
+    let m = stats::mean_t_interval(&scores, confidence).and_then(|m| {
+        if range != (0.0, 1.0) {
+            return Ok((m, false));
+        }
+        let floor =
+            stats::agresti_coull_std_error(m.mean.clamp(0.0, 1.0) * rows as f64, rows, confidence)?;
+        if m.std_error >= floor {
+            return Ok((m, false));
+        }
+        let t = stats::t_quantile(0.5 + 0.5 * confidence, m.df)?;
+        let floored = stats::MeanEstimate {
+            std_error: floor,
+            interval: Interval {
+                lower: m.mean - t * floor,
+                upper: m.mean + t * floor,
+            },
+            ..m
+        };
+        Ok((floored, true))
+    });
+    match m {
+        Ok((m, floored)) => Estimate {
             value: m.mean,
-            interval: Some(m.interval),
+            interval: Some(m.interval.clamp_to(range)),
             basis: IntervalBasis::FoldMean {
                 folds: scores.len(),
+                floored,
+                clipped: m.interval.leaves(range),
             },
             rows,
             correct: None,

@@ -123,3 +123,16 @@ def write_trials(path):
 
 if "--write-trials" in sys.argv:
     write_trials("fixtures/scenarios/selection-perfect-cv-search/trials-900.jsonl")
+
+# --- fold-mean-range: fold-mean t intervals kept inside [0, 1] (issue 9, item 8) ---
+for name, folds, rows in [("auc", [1.0, 0.99, 1.0, 0.98, 1.0], 200), ("f1", [1.0] * 5, 200)]:
+    a = np.asarray(folds)
+    m, sem = a.mean(), stats.sem(a)
+    lo_t, hi_t = stats.t.interval(0.95, len(a) - 1, loc=m, scale=sem) if sem > 0 else (m, m)
+    floor, _ = ac_se(m * rows, rows)
+    se = max(sem, floor)
+    t = stats.t.ppf(0.975, len(a) - 1)
+    print(f"{name}: mean {m:.10f}, sem {sem:.10f}, plain t interval [{lo_t:.10f}, {hi_t:.10f}]; "
+          f"Agresti-Coull floor on {rows} rows {floor:.10f}; interval used "
+          f"[{max(0, m - t * se):.10f}, {min(1, m + t * se):.10f}]")
+    show(f"{name}: E[max 900] shift of the floored SE", e900 * se)
