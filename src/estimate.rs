@@ -44,8 +44,13 @@ pub struct Estimate {
     pub basis: IntervalBasis,
     /// Distinct rows the estimate rests on.
     pub rows: u64,
-    /// Correct rows, for proportion metrics.
+    /// Correct rows, for proportion metrics, when they are a whole count of `rows` (not for
+    /// repeated k-fold, whose pooled count is spread over the repeats).
     pub correct: Option<u64>,
+    /// The count behind a proportion over `rows`: `correct`, or with R repeats of k-fold the
+    /// correct validations divided by R, which need not be whole (801 of 1000 validations over
+    /// 2 repeats is 400.5 of 500 rows). Intervals and tests use it unrounded.
+    pub successes: Option<f64>,
     /// Standard error of the estimate. For a proportion the Agresti–Coull form
     /// √(p̃(1−p̃)/(n + z²)), which stays positive at 0/n and n/n (see
     /// [`stats::agresti_coull_std_error`]); s/√k over k folds otherwise, floored for metrics
@@ -67,25 +72,31 @@ fn pooled_proportion(cv: &CrossValidation, settings: IntervalSettings) -> Estima
     let correct: u64 = cv.folds.iter().filter_map(|f| f.correct).sum();
     let validated: u64 = cv.folds.iter().map(|f| f.rows).sum();
     let value = correct as f64 / validated as f64;
-    // With repeats, each row is validated `repeats` times; the interval counts it once.
+    // With repeats, each row is validated `repeats` times; the interval counts it once, with
+    // the mean count per repeat (never rounded to a whole count).
     let rows = cv.distinct_rows();
-    let count = (value * rows as f64).round() as u64;
+    let repeats = cv.repeats.max(1);
+    let successes = if repeats == 1 {
+        correct as f64
+    } else {
+        correct as f64 / f64::from(repeats)
+    };
     Estimate {
         value,
-        interval: stats::proportion_interval(count, rows, settings.confidence, settings.method)
-            .ok(),
+        interval: stats::proportion_interval_mean(
+            successes,
+            rows,
+            settings.confidence,
+            settings.method,
+        )
+        .ok(),
         basis: IntervalBasis::Proportion {
             method: settings.method,
         },
         rows,
-        correct: Some(count),
-        // The mean count per repeat: exact without repeats, and never rounded with them.
-        std_error: stats::agresti_coull_std_error(
-            correct as f64 / f64::from(cv.repeats.max(1)),
-            rows,
-            settings.confidence,
-        )
-        .ok(),
+        correct: (repeats == 1).then_some(correct),
+        successes: Some(successes),
+        std_error: stats::agresti_coull_std_error(successes, rows, settings.confidence).ok(),
     }
 }
 
@@ -134,6 +145,7 @@ fn fold_mean(cv: &CrossValidation, metric: Metric, confidence: f64) -> Estimate 
             },
             rows,
             correct: None,
+            successes: None,
             std_error: Some(m.std_error),
         },
         Err(_) => Estimate {
@@ -142,6 +154,7 @@ fn fold_mean(cv: &CrossValidation, metric: Metric, confidence: f64) -> Estimate 
             basis: IntervalBasis::Unavailable,
             rows,
             correct: None,
+            successes: None,
             std_error: None,
         },
     }
@@ -173,6 +186,7 @@ pub fn test_estimate(
             basis: IntervalBasis::Predictions { method: r.method },
             rows: r.rows,
             correct: r.correct,
+            successes: r.correct.map(|c| c as f64),
             std_error: None,
         });
     }
@@ -199,6 +213,7 @@ pub fn evaluation_estimate(evaluation: &Evaluation, settings: IntervalSettings) 
             },
             rows: evaluation.rows,
             correct: Some(correct),
+            successes: Some(correct as f64),
             std_error: stats::agresti_coull_std_error(
                 correct as f64,
                 evaluation.rows,
@@ -212,6 +227,7 @@ pub fn evaluation_estimate(evaluation: &Evaluation, settings: IntervalSettings) 
             basis: IntervalBasis::Unavailable,
             rows: evaluation.rows,
             correct: None,
+            successes: None,
             std_error: None,
         },
     }

@@ -336,3 +336,32 @@ fn each_finding_names_its_own_rules_policy_line() {
     assert_eq!(budget, ("rules.holdout_budget".to_owned(), Some(4)));
     assert_eq!(gap, ("rules.cv_test_gap".to_owned(), Some(5)));
 }
+
+/// Issue 9, item 12: 1 − α/k rounding to 1 is not an error ("confidence ... got 1"), and a looks
+/// answer that reaches the most searched says so.
+#[test]
+fn plan_handles_looks_beyond_float_confidence_and_says_when_it_stops_searching() {
+    let plan_args = [
+        "plan",
+        "--rows",
+        "100000000000000",
+        "--margin",
+        "0.01",
+        "--looks",
+        "1000000000000000000",
+    ];
+    let out = vetscore(&[&plan_args[..], &["--json"]].concat());
+    assert_eq!(out.status.code(), Some(0), "{}", stderr(&out));
+    let plan: serde_json::Value = serde_json::from_str(&stdout(&out)).unwrap();
+    // scipy 1.17.1: norm.isf(0.05 / 1e18 / 2) * sqrt(0.25 / 1e14) (tests/reference/edges.py).
+    assert_close(
+        "margin_bonferroni",
+        plan["margin_bonferroni"].as_f64().unwrap(),
+        4.5820091331e-7,
+        1e-16,
+    );
+    assert_eq!(plan["looks_capped"], true);
+    assert_eq!(plan["looks_bonferroni"], 1_000_000_000u64);
+    let text = vetscore(&plan_args);
+    assert!(stdout(&text).contains("at least 1000000000 (the most searched)"));
+}

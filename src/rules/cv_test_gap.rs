@@ -60,11 +60,16 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
         ),
     ];
     let within_bound = super::threshold::at_most(gap.abs(), settings.max_gap);
-    let noise = match (cv.correct, test.correct) {
+    let noise = match (cv.successes, test.successes) {
         (Some(x1), Some(x2)) => {
-            let interval =
-                stats::newcombe_difference(x1, cv.rows, x2, test.rows, ctx.intervals.confidence);
-            let z = stats::two_proportion_z_test(x1, cv.rows, x2, test.rows);
+            let interval = stats::newcombe_difference_mean(
+                x1,
+                cv.rows,
+                x2,
+                test.rows,
+                ctx.intervals.confidence,
+            );
+            let z = stats::two_proportion_z_test_mean(x1, cv.rows, x2, test.rows);
             match (interval, z) {
                 (Ok(interval), Ok(z)) => {
                     evidence.push(Evidence::interval(
@@ -121,7 +126,7 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
              the interval for the gap is {gap_interval}.",
             evidence,
         ),
-        None if cv.correct.is_some() && test.correct.is_some() => Outcome::pass(
+        None if cv.successes.is_some() && test.successes.is_some() => Outcome::pass(
             "CV estimate {cv} and test score {test} differ by {gap}, inside the allowed {max_gap} \
              (no noise test: with every row right, or every row wrong, the counts leave no \
              variation to test).",

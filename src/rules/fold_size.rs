@@ -116,10 +116,7 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
         // At the Agresti–Coull centre p̃ of the pooled CV count, not at p̂: at p̂ = 0 or 1 the
         // plug-in p̂(1 − p̂) is 0, which would report a perfect fold as exact and needing no rows.
         let confidence = ctx.intervals.confidence;
-        let pooled = cv
-            .correct
-            .map(|c| c as f64)
-            .unwrap_or(cv.value * cv.rows as f64);
+        let pooled = cv.successes.unwrap_or(cv.value * cv.rows as f64);
         if let (Ok(se_pooled), Ok(z)) = (
             stats::agresti_coull_std_error(pooled, cv.rows, confidence),
             stats::z_two_sided(confidence),

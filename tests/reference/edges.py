@@ -136,3 +136,14 @@ for name, folds, rows in [("auc", [1.0, 0.99, 1.0, 0.98, 1.0], 200), ("f1", [1.0
           f"Agresti-Coull floor on {rows} rows {floor:.10f}; interval used "
           f"[{max(0, m - t * se):.10f}, {min(1, m + t * se):.10f}]")
     show(f"{name}: E[max 900] shift of the floored SE", e900 * se)
+
+# --- cv-repeated: 801 of 1000 validations over 2 repeats of 500 rows (issue 9, item 12) ---
+lo, hi = proportion_confint(400.5, 500, alpha=0.05, method="wilson")
+print(f"proportion_confint(400.5, 500, method='wilson') = [{lo:.10f}, {hi:.10f}]")
+lo, hi = confint_proportions_2indep(400.5, 500, 400, 500, method="newcomb", compare="diff")
+z, p = proportions_ztest([400.5, 400], [500, 500])
+print(f"newcomb(400.5, 500, 400, 500) = [{lo:.10f}, {hi:.10f}]; ztest p = {p:.10f}")
+
+# --- plan with 10^18 looks: Bonferroni z at alpha/k = 5e-20 (issue 9, item 12) ---
+zk = stats.norm.isf(0.05 / 1e18 / 2)
+print(f"norm.isf(0.05 / 1e18 / 2) = {zk:.10f}; margin on 1e14 rows = {zk * math.sqrt(0.25 / 1e14):.10e}")
