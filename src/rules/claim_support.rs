@@ -28,7 +28,14 @@ one, and a gate must never reward raising a claim). A claim equal to a bound up 
 inside. The evidence must also hold at least `min_rows` rows: a claim on a handful of test \
 rows lies inside an interval so wide that it says nothing. A claim with basis `cv` must lie inside the cross-validation interval; because it \
 rests on the best of many configurations, the selection-optimism rule also judges it after \
-adjusting for the search, and the policy may forbid such claims with `allow_cv_claims: false`.",
+adjusting for the search, and the policy may forbid such claims with `allow_cv_claims: false`. \
+The CV interval of accuracy is the binomial interval of the pooled count over distinct rows (with \
+repeated k-fold the mean count per repeat, not rounded). For other metrics it is a Student-t \
+interval over the fold scores; for metrics bounded to [0, 1] (F1, ROC AUC, balanced accuracy) its \
+standard error is at least the Agresti–Coull (1998) standard error of a proportion at the same \
+value on the same rows, because folds that agree exactly (zero spread, every fold 1.0) would \
+otherwise give an interval of zero width; and every t interval is clipped to the metric's range. \
+The finding says when either happened (`interval_note`).",
     check,
     severity_from_base: false,
 };

@@ -59,7 +59,7 @@ N·x·φ(x)·Φ(x)^(N−1) (checked against Harter 1961 and Blom's 1958 approxim
 the standard error is the Agresti–Coull (1998) form √(p̃(1−p̃)/(n + z²)), p̃ = (x + z²/2)/(n + z²), \
 which stays positive at 0/n and n/n where the plug-in √(p̂(1−p̂)/n) is 0 and would call a perfect \
 CV score exact; for other metrics bounded to [0, 1] the fold standard error is floored the same \
-way (see the CV estimate in docs/rules.md). It assumes the N configurations are independent; \
+way (see claim support). It assumes the N configurations are independent; \
 correlated configurations overstate it, so a manifest may state `effective_configurations`. \
 (2) Best-of-N binomial tail, for accuracy: the probability that the best of N configurations \
 reaches the observed CV count k of n rows if every configuration's true accuracy were the test \
