@@ -239,11 +239,18 @@ fn plan(args: &crate::cli::PlanArgs) -> Result<Exit> {
                 r.to_string(),
             ));
         }
+        let looks = |n: u64| {
+            if n == crate::plan::MAX_LOOKS {
+                format!("at least {n} (the most searched)")
+            } else {
+                n.to_string()
+            }
+        };
         if let Some(n) = plan.looks_bonferroni {
-            rows.push(("looks the split affords (Bonferroni)".into(), n.to_string()));
+            rows.push(("looks the split affords (Bonferroni)".into(), looks(n)));
         }
         if let Some(n) = plan.looks_hoeffding {
-            rows.push(("looks the split affords (Hoeffding)".into(), n.to_string()));
+            rows.push(("looks the split affords (Hoeffding)".into(), looks(n)));
         }
         flush(
             format!("For a margin of ±{e} at {pct} confidence:"),

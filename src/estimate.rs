@@ -9,7 +9,7 @@
 use schemars::JsonSchema;
 use serde::Serialize;
 
-use crate::manifest::{CrossValidation, Evaluation, Model};
+use crate::manifest::{CrossValidation, Evaluation, Metric, Model};
 pub use crate::stats::IntervalSettings;
 use crate::stats::{self, Interval, ProportionMethod};
 
@@ -20,7 +20,14 @@ pub enum IntervalBasis {
     /// A binomial interval on a count of correct rows.
     Proportion { method: ProportionMethod },
     /// A Student-t interval over per-fold scores.
-    FoldMean { folds: usize },
+    FoldMean {
+        folds: usize,
+        /// The standard error was raised to the floor for metrics bounded to [0, 1] (the fold
+        /// scores barely vary, or not at all).
+        floored: bool,
+        /// The t interval reached past the metric's range and was clipped to it.
+        clipped: bool,
+    },
     /// Recomputed from the per-example predictions.
     Predictions {
         method: crate::evidence::metric::Method,
@@ -37,9 +44,17 @@ pub struct Estimate {
     pub basis: IntervalBasis,
     /// Distinct rows the estimate rests on.
     pub rows: u64,
-    /// Correct rows, for proportion metrics.
+    /// Correct rows, for proportion metrics, when they are a whole count of `rows` (not for
+    /// repeated k-fold, whose pooled count is spread over the repeats).
     pub correct: Option<u64>,
-    /// Standard error of the estimate: √(p(1−p)/n) for a proportion, s/√k over k folds.
+    /// The count behind a proportion over `rows`: `correct`, or with R repeats of k-fold the
+    /// correct validations divided by R, which need not be whole (801 of 1000 validations over
+    /// 2 repeats is 400.5 of 500 rows). Intervals and tests use it unrounded.
+    pub successes: Option<f64>,
+    /// Standard error of the estimate. For a proportion the Agresti–Coull form
+    /// √(p̃(1−p̃)/(n + z²)), which stays positive at 0/n and n/n (see
+    /// [`stats::agresti_coull_std_error`]); s/√k over k folds otherwise, floored for metrics
+    /// bounded to [0, 1] (see [`fold_mean`]).
     pub std_error: Option<f64>,
 }
 
@@ -49,7 +64,7 @@ pub fn cv_estimate(model: &Model, settings: IntervalSettings) -> Option<Estimate
     Some(if model.metric.is_proportion() {
         pooled_proportion(cv, settings)
     } else {
-        fold_mean(cv, settings.confidence)
+        fold_mean(cv, model.metric, settings.confidence)
     })
 }
 
@@ -57,34 +72,80 @@ fn pooled_proportion(cv: &CrossValidation, settings: IntervalSettings) -> Estima
     let correct: u64 = cv.folds.iter().filter_map(|f| f.correct).sum();
     let validated: u64 = cv.folds.iter().map(|f| f.rows).sum();
     let value = correct as f64 / validated as f64;
-    // With repeats, each row is validated `repeats` times; the interval counts it once.
+    // With repeats, each row is validated `repeats` times; the interval counts it once, with
+    // the mean count per repeat (never rounded to a whole count).
     let rows = cv.distinct_rows();
-    let count = (value * rows as f64).round() as u64;
+    let repeats = cv.repeats.max(1);
+    let successes = if repeats == 1 {
+        correct as f64
+    } else {
+        correct as f64 / f64::from(repeats)
+    };
     Estimate {
         value,
-        interval: stats::proportion_interval(count, rows, settings.confidence, settings.method)
-            .ok(),
+        interval: stats::proportion_interval_mean(
+            successes,
+            rows,
+            settings.confidence,
+            settings.method,
+        )
+        .ok(),
         basis: IntervalBasis::Proportion {
             method: settings.method,
         },
         rows,
-        correct: Some(count),
-        std_error: Some((value * (1.0 - value) / rows as f64).sqrt()),
+        correct: (repeats == 1).then_some(correct),
+        successes: Some(successes),
+        std_error: stats::agresti_coull_std_error(successes, rows, settings.confidence).ok(),
     }
 }
 
-fn fold_mean(cv: &CrossValidation, confidence: f64) -> Estimate {
+/// The mean of the fold scores with a Student-t interval, kept inside the metric's range.
+///
+/// For metrics bounded to [0, 1] (F1, ROC AUC, balanced accuracy) the standard error is at least
+/// the Agresti–Coull standard error of a proportion at the same value on the same distinct rows
+/// ([`stats::agresti_coull_std_error`]): folds that agree exactly (every fold AUC 1.0) give
+/// s = 0, and an interval of zero width would call a score on a few hundred rows exact. The
+/// floor is the sampling error of a row-level proportion at that value — the order of these
+/// metrics' own sampling error on the same rows (common practice, no source) — and is stated in
+/// the estimate's basis (`floored`). The interval is then clipped to the metric's range
+/// (`clipped`): a t interval is symmetric and can reach past 1 or below 0.
+fn fold_mean(cv: &CrossValidation, metric: Metric, confidence: f64) -> Estimate {
     let scores: Vec<f64> = cv.folds.iter().map(|f| f.score).collect();
     let rows = cv.distinct_rows();
-    match stats::mean_t_interval(&scores, confidence) {
-        Ok(m) => Estimate {
+    let range = metric.range();
+    let m = stats::mean_t_interval(&scores, confidence).and_then(|m| {
+        if range != (0.0, 1.0) {
+            return Ok((m, false));
+        }
+        let floor =
+            stats::agresti_coull_std_error(m.mean.clamp(0.0, 1.0) * rows as f64, rows, confidence)?;
+        if m.std_error >= floor {
+            return Ok((m, false));
+        }
+        let t = stats::t_quantile(0.5 + 0.5 * confidence, m.df)?;
+        let floored = stats::MeanEstimate {
+            std_error: floor,
+            interval: Interval {
+                lower: m.mean - t * floor,
+                upper: m.mean + t * floor,
+            },
+            ..m
+        };
+        Ok((floored, true))
+    });
+    match m {
+        Ok((m, floored)) => Estimate {
             value: m.mean,
-            interval: Some(m.interval),
+            interval: Some(m.interval.clamp_to(range)),
             basis: IntervalBasis::FoldMean {
                 folds: scores.len(),
+                floored,
+                clipped: m.interval.leaves(range),
             },
             rows,
             correct: None,
+            successes: None,
             std_error: Some(m.std_error),
         },
         Err(_) => Estimate {
@@ -93,6 +154,7 @@ fn fold_mean(cv: &CrossValidation, confidence: f64) -> Estimate {
             basis: IntervalBasis::Unavailable,
             rows,
             correct: None,
+            successes: None,
             std_error: None,
         },
     }
@@ -124,6 +186,7 @@ pub fn test_estimate(
             basis: IntervalBasis::Predictions { method: r.method },
             rows: r.rows,
             correct: r.correct,
+            successes: r.correct.map(|c| c as f64),
             std_error: None,
         });
     }
@@ -150,10 +213,13 @@ pub fn evaluation_estimate(evaluation: &Evaluation, settings: IntervalSettings) 
             },
             rows: evaluation.rows,
             correct: Some(correct),
-            std_error: Some(
-                (correct as f64 * (evaluation.rows - correct) as f64).sqrt()
-                    / (evaluation.rows as f64).powf(1.5),
-            ),
+            successes: Some(correct as f64),
+            std_error: stats::agresti_coull_std_error(
+                correct as f64,
+                evaluation.rows,
+                settings.confidence,
+            )
+            .ok(),
         },
         None => Estimate {
             value: evaluation.score,
@@ -161,6 +227,7 @@ pub fn evaluation_estimate(evaluation: &Evaluation, settings: IntervalSettings) 
             basis: IntervalBasis::Unavailable,
             rows: evaluation.rows,
             correct: None,
+            successes: None,
             std_error: None,
         },
     }

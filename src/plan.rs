@@ -33,10 +33,14 @@ pub struct Plan {
     /// For the given rows and margin: how many looks keep the margin.
     pub looks_bonferroni: Option<u64>,
     pub looks_hoeffding: Option<u64>,
+    /// Whether a looks answer stopped at the most looks searched ([`MAX_LOOKS`]): the split
+    /// affords at least that many.
+    pub looks_capped: bool,
 }
 
-/// Most looks searched for; beyond this the answer is reported as this number.
-const MAX_LOOKS: u64 = 1_000_000_000;
+/// Most looks searched for; an answer that reaches it is reported as "at least" this number
+/// (`looks_capped`).
+pub const MAX_LOOKS: u64 = 1_000_000_000;
 
 /// Answers what the input asks.
 pub fn plan(input: PlanInput) -> Result<Plan, StatsError> {
@@ -54,6 +58,7 @@ pub fn plan(input: PlanInput) -> Result<Plan, StatsError> {
         rows_hoeffding: None,
         looks_bonferroni: None,
         looks_hoeffding: None,
+        looks_capped: false,
     };
     if let Some(n) = input.rows {
         plan.margin_normal = Some(z * (0.25 / n as f64).sqrt());
@@ -70,15 +75,18 @@ pub fn plan(input: PlanInput) -> Result<Plan, StatsError> {
             plan.looks_hoeffding = Some(most_looks(|k| {
                 Ok(stats::hoeffding_margin(n, alpha, k)? <= e)
             })?);
+            plan.looks_capped =
+                [plan.looks_bonferroni, plan.looks_hoeffding].contains(&Some(MAX_LOOKS));
         }
     }
     Ok(plan)
 }
 
-/// Normal margin at p = 0.5 with the confidence Bonferroni-adjusted for `looks`.
+/// Normal margin at p = 0.5 with the confidence Bonferroni-adjusted for `looks`: z at α/k,
+/// taken from α/k itself so that 1 − α/k never rounds to 1 however many looks.
 fn bonferroni_margin(rows: u64, confidence: f64, looks: u64) -> Result<f64, StatsError> {
-    let adjusted = 1.0 - (1.0 - confidence) / looks as f64;
-    Ok(stats::z_two_sided(adjusted)? * (0.25 / rows as f64).sqrt())
+    let alpha = (1.0 - confidence) / looks as f64;
+    Ok(stats::z_two_sided_alpha(alpha)? * (0.25 / rows as f64).sqrt())
 }
 
 /// The largest k in [0, MAX_LOOKS] with `fits(k)`, for a `fits` that holds up to some k and not

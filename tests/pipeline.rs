@@ -279,3 +279,89 @@ fn the_readme_merge_request_story_holds() {
     );
     assert!(junit.exists());
 }
+
+/// Issue 9, item 11: each finding names the line of its own rule's block, in a block-style YAML
+/// policy, a JSON policy and an override, not the line of the first block under `rules:`.
+#[test]
+fn each_finding_names_its_own_rules_policy_line() {
+    let dir = tempfile::tempdir().unwrap();
+    let yaml = dir.path().join("policy.yaml");
+    std::fs::write(
+        &yaml,
+        "format_version: 1\nrules:\n  holdout_budget:\n    max_evaluations: 3\n  cv_test_gap:\n    max_gap: 0.05\n  fold_size: {min_rows: 30}\noverrides:\n  - models: [\"*\"]\n    rules:\n      claim_support:\n        min_rows: 30\n",
+    )
+    .unwrap();
+    let json = dir.path().join("policy.json");
+    std::fs::write(
+        &json,
+        "{\n  \"format_version\": 1,\n  \"rules\": {\n    \"holdout_budget\": {\"max_evaluations\": 3},\n    \"cv_test_gap\": {\n      \"max_gap\": 0.05\n    }\n  }\n}\n",
+    )
+    .unwrap();
+    let manifest = "fixtures/scenarios/gap-over-bound/manifest.yaml";
+    let lines = |policy: &std::path::Path| {
+        let out = dir.path().join("report.json");
+        vetscore(&[
+            "check",
+            "--policy",
+            policy.to_str().unwrap(),
+            "--today",
+            "2026-12-01",
+            "--json",
+            out.to_str().unwrap(),
+            manifest,
+        ]);
+        let report = common::Report::read(&out);
+        let model = &report.models[0];
+        let line = |rule: &str| {
+            let p = &model.finding(rule).policy;
+            (p["path"].as_str().unwrap().to_owned(), p["line"].as_u64())
+        };
+        (
+            line("holdout_budget"),
+            line("cv_test_gap"),
+            line("fold_size"),
+            line("claim_support"),
+        )
+    };
+    // Counted in the texts above: the key of each block.
+    let (budget, gap, fold, claim) = lines(&yaml);
+    assert_eq!(budget, ("rules.holdout_budget".to_owned(), Some(3)));
+    assert_eq!(gap, ("rules.cv_test_gap".to_owned(), Some(5)));
+    assert_eq!(fold, ("rules.fold_size".to_owned(), Some(7)));
+    assert_eq!(
+        claim,
+        ("overrides[0].rules.claim_support".to_owned(), Some(11))
+    );
+    let (budget, gap, _, _) = lines(&json);
+    assert_eq!(budget, ("rules.holdout_budget".to_owned(), Some(4)));
+    assert_eq!(gap, ("rules.cv_test_gap".to_owned(), Some(5)));
+}
+
+/// Issue 9, item 12: 1 − α/k rounding to 1 is not an error ("confidence ... got 1"), and a looks
+/// answer that reaches the most searched says so.
+#[test]
+fn plan_handles_looks_beyond_float_confidence_and_says_when_it_stops_searching() {
+    let plan_args = [
+        "plan",
+        "--rows",
+        "100000000000000",
+        "--margin",
+        "0.01",
+        "--looks",
+        "1000000000000000000",
+    ];
+    let out = vetscore(&[&plan_args[..], &["--json"]].concat());
+    assert_eq!(out.status.code(), Some(0), "{}", stderr(&out));
+    let plan: serde_json::Value = serde_json::from_str(&stdout(&out)).unwrap();
+    // scipy 1.17.1: norm.isf(0.05 / 1e18 / 2) * sqrt(0.25 / 1e14) (tests/reference/edges.py).
+    assert_close(
+        "margin_bonferroni",
+        plan["margin_bonferroni"].as_f64().unwrap(),
+        4.5820091331e-7,
+        1e-16,
+    );
+    assert_eq!(plan["looks_capped"], true);
+    assert_eq!(plan["looks_bonferroni"], 1_000_000_000u64);
+    let text = vetscore(&plan_args);
+    assert!(stdout(&text).contains("at least 1000000000 (the most searched)"));
+}

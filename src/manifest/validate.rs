@@ -705,12 +705,47 @@ impl Validator<'_> {
         }
         if let Some(data) = data {
             self.fold_total(place, path, raw.scheme, repeats, &folds, data.train_rows);
+            self.fold_labels(place, path, &folds, data);
         }
         (self.out.len() == before).then_some(CrossValidation {
             scheme: raw.scheme,
             repeats,
             folds,
         })
+    }
+
+    /// A fold's class labels must be classes of the training split: labels that match nothing
+    /// (names in `class_counts`, 0/1 in a fold) would otherwise read as a fold with 0 rows of a
+    /// class, a statistical failure where the input is wrong.
+    fn fold_labels(&mut self, place: Place, path: &str, folds: &[Fold], data: &Data) {
+        let Some(counts) = &data.class_counts else {
+            return;
+        };
+        for (i, fold) in folds.iter().enumerate() {
+            let Some(rows) = &fold.class_rows else {
+                continue;
+            };
+            let unknown: Vec<&str> = rows
+                .keys()
+                .filter(|k| !counts.train.contains_key(*k))
+                .map(String::as_str)
+                .collect();
+            if !unknown.is_empty() {
+                let known: Vec<&str> = counts.train.keys().map(String::as_str).collect();
+                self.out.push(
+                    Diagnostic::at(
+                        self.file,
+                        place,
+                        format!("{path}.folds[{i}].class_rows"),
+                        format!(
+                            "class labels {unknown:?} are not classes of the training split, \
+                             which data.class_counts.train names {known:?}"
+                        ),
+                    )
+                    .with_help("write the fold's class rows with the same labels as class_counts"),
+                );
+            }
+        }
     }
 
     /// Fold sizes must account for the training rows: once per repeat for k-fold schemes, at

@@ -121,6 +121,8 @@ pub struct Policy {
     pub seed: u64,
     base: RuleSettings,
     base_line: Option<u64>,
+    /// The rules block as written, for the line of each rule's own block.
+    base_lines: RawRuleSettings,
     base_touched: Vec<&'static str>,
     overrides: Vec<Override>,
     waivers: Vec<Waiver>,
@@ -203,6 +205,7 @@ impl Policy {
             seed: 1,
             base: RuleSettings::default(),
             base_line: None,
+            base_lines: RawRuleSettings::default(),
             base_touched: Vec::new(),
             overrides: Vec::new(),
             waivers: Vec::new(),
@@ -219,6 +222,11 @@ impl Policy {
             input::parse(&file, &text, Syntax::detect(path, &text)).map_err(|d| vec![d])?;
         let digest = hex(&Sha256::digest(text.as_bytes()));
         let mut policy = validate(&file, raw, digest)?;
+        let key_line = |id: &str, line: u64| rule_key_line(&text, id, line);
+        policy.base_lines.relocate(key_line);
+        for o in &mut policy.overrides {
+            o.rules.relocate(key_line);
+        }
         policy.text = Some(text);
         Ok(policy)
     }
@@ -245,7 +253,7 @@ impl Policy {
                 let source = if self.base_touched.contains(&r.id) {
                     PolicySource {
                         path: format!("rules.{}", r.id),
-                        line: self.base_line,
+                        line: self.base_lines.line(r.id).or(self.base_line),
                     }
                 } else {
                     PolicySource {
@@ -264,7 +272,7 @@ impl Policy {
                         id,
                         PolicySource {
                             path: format!("overrides[{i}].rules.{id}"),
-                            line: o.line,
+                            line: o.rules.line(id).or(o.line),
                         },
                     );
                 }
@@ -402,13 +410,13 @@ pub fn validate(file: &str, raw: RawPolicy, digest: String) -> Result<Policy, Ve
         ));
     }
     let mut base = RuleSettings::default();
-    let (base_touched, base_line) = match &raw.rules {
+    let (base_touched, base_line, base_lines) = match raw.rules {
         Some(rules) => {
             let place = Place::of(&rules.referenced);
             setting_problems(&mut out, file, place, "rules", &rules.value);
-            (base.apply(&rules.value), place.line)
+            (base.apply(&rules.value), place.line, rules.value)
         }
-        None => (Vec::new(), None),
+        None => (Vec::new(), None, RawRuleSettings::default()),
     };
     let mut overrides = Vec::new();
     for (i, spanned) in raw.overrides.into_iter().enumerate() {
@@ -516,10 +524,28 @@ pub fn validate(file: &str, raw: RawPolicy, digest: String) -> Result<Policy, Ve
         seed: raw.seed.unwrap_or(defaults.seed),
         base,
         base_line,
+        base_lines,
         base_touched,
         index: PatternIndex::build(&overrides, &waivers),
         overrides,
         waivers,
+    })
+}
+
+/// The line of the key `id:` (or `"id":`) that owns a rule block whose value starts on `line`:
+/// that line itself for a flow mapping or JSON, the line above for a block mapping. The parser
+/// records where a value starts, not where its key is, and a finding should name the key.
+fn rule_key_line(text: &str, id: &str, line: u64) -> Option<u64> {
+    let lines: Vec<&str> = text.lines().collect();
+    let last = usize::try_from(line).ok()?.min(lines.len());
+    (1..=last).rev().find_map(|n| {
+        let content = lines[n - 1].trim_start().trim_start_matches("- ");
+        let rest = content
+            .strip_prefix('"')
+            .and_then(|c| c.strip_prefix(id))
+            .and_then(|c| c.strip_prefix('"'))
+            .or_else(|| content.strip_prefix(id))?;
+        rest.trim_start().starts_with(':').then_some(n as u64)
     })
 }
 

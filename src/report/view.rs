@@ -349,7 +349,14 @@ fn fill(sentence: &str, evidence: &[Evidence], text: impl Fn(&str) -> String) ->
                 match evidence.iter().find(|e| e.key == key) {
                     Some(e) => match &e.value {
                         EvidenceValue::Text { value } => out.push_str(&text(value)),
-                        other => out.push_str(&format::evidence(other)),
+                        other => {
+                            let shown = format::evidence(other);
+                            // "p = {p}" with p shown as "< 0.0001" reads "p < 0.0001".
+                            if shown.starts_with('<') && out.ends_with(" = ") {
+                                out.truncate(out.len() - 2);
+                            }
+                            out.push_str(&shown);
+                        }
                     },
                     // A sentence naming absent evidence is a bug in the rule; show it plainly.
                     None => out.push_str(&format!("(missing {key})")),
@@ -385,5 +392,8 @@ mod tests {
             fill("{nothing}", &evidence, |s| s.to_owned()),
             "(missing nothing)"
         );
+        // Issue 9, item 12: never "(p = < 0.0001)".
+        let tiny = vec![Evidence::number("p", "p", 3e-9, Quantity::Probability)];
+        assert_eq!(fill("(p = {p})", &tiny, |s| s.to_owned()), "(p < 0.0001)");
     }
 }

@@ -21,12 +21,21 @@ pub const RULE: RuleInfo = RuleInfo {
 basis. A claim with basis `test` must lie inside the confidence interval of the last test-split \
 score (for accuracy a binomial interval on the count of correct rows, by the policy's \
 `interval_method`: Wilson 1927 by default, or Clopper–Pearson 1934, Agresti–Coull 1998, \
-Jeffreys as in Brown, Cai & DasGupta 2001). A claim above the interval overstates the model; a \
-claim below it understates it and is also flagged, because the stated number does not describe \
-the evidence. The evidence must also hold at least `min_rows` rows: a claim on a handful of test \
+Jeffreys as in Brown, Cai & DasGupta 2001). A claim above the interval overstates the model and fails; a \
+claim below it understates the model: the evidence supports more than is claimed, so it passes \
+with a sentence saying so (failing it would make a lower claim less favourable than a higher \
+one, and a gate must never reward raising a claim). A claim equal to a bound up to rounding is \
+inside. The evidence must also hold at least `min_rows` rows: a claim on a handful of test \
 rows lies inside an interval so wide that it says nothing. A claim with basis `cv` must lie inside the cross-validation interval; because it \
 rests on the best of many configurations, the selection-optimism rule also judges it after \
-adjusting for the search, and the policy may forbid such claims with `allow_cv_claims: false`.",
+adjusting for the search, and the policy may forbid such claims with `allow_cv_claims: false`. \
+The CV interval of accuracy is the binomial interval of the pooled count over distinct rows (with \
+repeated k-fold the mean count per repeat, not rounded). For other metrics it is a Student-t \
+interval over the fold scores; for metrics bounded to [0, 1] (F1, ROC AUC, balanced accuracy) its \
+standard error is at least the Agresti–Coull (1998) standard error of a proportion at the same \
+value on the same rows, because folds that agree exactly (zero spread, every fold 1.0) would \
+otherwise give an interval of zero width; and every t interval is clipped to the metric's range. \
+The finding says when either happened (`interval_note`).",
     check,
     severity_from_base: false,
 };
@@ -86,6 +95,26 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
         interval,
         ctx.intervals.confidence,
     ));
+    if let crate::estimate::IntervalBasis::FoldMean {
+        floored, clipped, ..
+    } = estimate.basis
+    {
+        let note = match (floored, clipped) {
+            (true, true) => Some(
+                "fold scores vary less than a proportion on these rows can: the standard error \
+                 is floored, and the interval clipped to the metric's range",
+            ),
+            (true, false) => Some(
+                "fold scores vary less than a proportion on these rows can: the standard error \
+                 is floored",
+            ),
+            (false, true) => Some("the t interval is clipped to the metric's range"),
+            (false, false) => None,
+        };
+        if let Some(note) = note {
+            evidence.push(Evidence::text("interval_note", "About the interval", note));
+        }
+    }
     evidence.push(Evidence::count(
         "rows",
         "Rows behind the estimate",
@@ -103,8 +132,8 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
             evidence,
         );
     }
-    let inside = interval.contains(claim.value);
-    let higher = claim.value > interval.upper;
+    let inside = super::threshold::inside(interval, claim.value);
+    let higher = !super::threshold::at_most(claim.value, interval.upper);
     let overstates = if subject.model.metric.higher_is_better() {
         higher
     } else {
@@ -125,9 +154,9 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
             "The claimed {claim} is better than the evidence supports: the interval is {interval}.",
             evidence,
         ),
-        (_, false, false) => Outcome::fail(
-            "The claimed {claim} lies outside the interval {interval} on the worse side; the \
-             stated number does not describe the evidence.",
+        (_, false, false) => Outcome::pass(
+            "The claimed {claim} lies outside the interval {interval} on the worse side: the \
+             evidence supports more than is claimed.",
             evidence,
         ),
     }

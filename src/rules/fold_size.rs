@@ -25,7 +25,11 @@ misclassified row moves the fold score by 0.25, and a best-of-many search will f
 configurations that are lucky on such folds. The finding states the standard error of the \
 smallest fold at the CV estimate and the rows a fold would need for a margin of error E at the \
 policy's confidence by Cochran's formula n = z²·p(1−p)/E² (Cochran 1977, Sampling Techniques, \
-ch. 4), both at the CV estimate and at the worst case p = 0.5.",
+ch. 4), both at the CV estimate and at the worst case p = 0.5. At the boundary (every fold \
+perfect, or every row wrong) p̂(1−p̂) is 0 and would report an exact fold needing no rows, so \
+both use the Agresti–Coull (1998) centre p̃ = (x + z²/2)/(n + z²) of the pooled CV count x of n \
+rows instead of p̂, and the fold's standard error is √(p̃(1−p̃)/(m + z²)) for its m rows. Rows \
+equal to the minimum pass.",
     check,
     severity_from_base: false,
 };
@@ -109,19 +113,37 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
         ));
     }
     if let (true, Some(cv)) = (subject.model.metric.is_proportion(), &subject.cv) {
-        let p = cv.value;
-        evidence.push(Evidence::number(
-            "fold_se",
-            "Standard error of the smallest fold",
-            (p * (1.0 - p) / smallest as f64).sqrt(),
-            Quantity::Score,
-        ));
-        if let Ok(rows) = stats::cochran_rows_ceil(p, settings.margin, ctx.intervals.confidence) {
-            evidence.push(Evidence::count(
-                "rows_needed",
-                "Rows for the margin at the CV estimate",
-                rows,
+        // At the Agresti–Coull centre p̃ of the pooled CV count, not at p̂: at p̂ = 0 or 1 the
+        // plug-in p̂(1 − p̂) is 0, which would report a perfect fold as exact and needing no rows.
+        let confidence = ctx.intervals.confidence;
+        let pooled = cv.successes.unwrap_or(cv.value * cv.rows as f64);
+        if let (Ok(se_pooled), Ok(z)) = (
+            stats::agresti_coull_std_error(pooled, cv.rows, confidence),
+            stats::z_two_sided(confidence),
+        ) {
+            let n_tilde = cv.rows as f64 + z * z;
+            let p_tilde = (pooled + 0.5 * z * z) / n_tilde;
+            // Same p̃, the smallest fold's rows: √(p̃(1 − p̃)/(m + z²)).
+            let fold_se = se_pooled * (n_tilde / (smallest as f64 + z * z)).sqrt();
+            evidence.push(Evidence::number(
+                "fold_se",
+                "Standard error of the smallest fold",
+                fold_se,
+                Quantity::Score,
             ));
+            evidence.push(Evidence::number(
+                "p_tilde",
+                "CV estimate, Agresti–Coull centre",
+                p_tilde,
+                Quantity::Score,
+            ));
+            if let Ok(rows) = stats::cochran_rows_ceil(p_tilde, settings.margin, confidence) {
+                evidence.push(Evidence::count(
+                    "rows_needed",
+                    "Rows for the margin at the CV estimate",
+                    rows,
+                ));
+            }
         }
     }
     let class_ok = smallest_class.is_none_or(|r| r >= settings.min_class_rows);

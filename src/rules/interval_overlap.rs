@@ -18,7 +18,9 @@ overlap of two 95% intervals is a conservative test of a difference (Schenker & 
 'On judging the significance of differences by examining the overlap between confidence \
 intervals'), so intervals can overlap while the difference is still significant. That is why the \
 CV-to-test gap rule runs a direct test of the difference as well; this rule is the picture a \
-reviewer sees in the interval strip, and it defaults to a warning.",
+reviewer sees in the interval strip, and it defaults to a warning. Intervals that touch (equal \
+bounds up to rounding) overlap; a degenerate interval (at 0/n or n/n the Wilson interval ends \
+exactly at 0 or 1) is compared like any other.",
     check,
     severity_from_base: false,
 };
@@ -46,7 +48,7 @@ fn check(subject: &Subject, ctx: &Context, _settings: &RuleSettings) -> Outcome 
         ),
     ];
     Outcome::judge(
-        cv.overlaps(&test),
+        super::threshold::overlap(cv, test),
         "The CV interval {cv_interval} and the test interval {test_interval} overlap.",
         "The CV interval {cv_interval} and the test interval {test_interval} do not overlap: \
          the two estimates disagree beyond their uncertainty.",

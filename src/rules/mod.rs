@@ -29,6 +29,7 @@ pub mod policy_change;
 pub mod recompute;
 pub mod selection_optimism;
 pub mod test_split;
+pub mod threshold;
 pub mod waiver_expiry;
 
 /// Severity as written in a policy file.
@@ -186,6 +187,39 @@ impl SettingValue for bool {
 }
 pub(crate) use rule_settings;
 
+/// A rule's block as written, with where it is in the policy file, so each finding can name its
+/// own rule's line. Deserializes like the block itself and has the block's JSON Schema.
+#[derive(Debug, Clone)]
+pub struct Located<T> {
+    pub value: T,
+    pub line: Option<u64>,
+}
+
+impl<'de, T: Deserialize<'de>> Deserialize<'de> for Located<T> {
+    fn deserialize<D: serde::Deserializer<'de>>(deserializer: D) -> Result<Self, D::Error> {
+        let spanned = serde_saphyr::Spanned::<T>::deserialize(deserializer)?;
+        Ok(Located {
+            line: crate::diag::Place::of(&spanned.referenced).line,
+            value: spanned.value,
+        })
+    }
+}
+
+impl<T: JsonSchema> JsonSchema for Located<T> {
+    fn inline_schema() -> bool {
+        T::inline_schema()
+    }
+    fn schema_name() -> std::borrow::Cow<'static, str> {
+        T::schema_name()
+    }
+    fn schema_id() -> std::borrow::Cow<'static, str> {
+        T::schema_id()
+    }
+    fn json_schema(generator: &mut schemars::SchemaGenerator) -> schemars::Schema {
+        T::json_schema(generator)
+    }
+}
+
 /// Declares the per-rule settings containers from the list of rule modules, so that a rule added
 /// to the list is added to the policy format in the same place.
 macro_rules! all_settings {
@@ -200,14 +234,17 @@ macro_rules! all_settings {
         #[derive(Debug, Clone, Default, Deserialize, JsonSchema)]
         #[serde(deny_unknown_fields)]
         pub struct RawRuleSettings {
-            $( #[serde(default)] pub $id: Option<$id::RawSettings>, )*
+            $(
+                #[serde(default)]
+                pub $id: Option<Located<$id::RawSettings>>,
+            )*
         }
 
         impl RuleSettings {
             /// Applies a policy block; returns the ids of the rules it touched.
             pub fn apply(&mut self, raw: &RawRuleSettings) -> Vec<&'static str> {
                 let mut touched = Vec::new();
-                $( if let Some(r) = &raw.$id { self.$id.apply(r); touched.push(stringify!($id)); } )*
+                $( if let Some(r) = &raw.$id { self.$id.apply(&r.value); touched.push(stringify!($id)); } )*
                 touched
             }
 
@@ -228,11 +265,30 @@ macro_rules! all_settings {
         }
 
         impl RawRuleSettings {
+            /// The line of rule `id`'s own block (`rules.<id>:`) in the policy file, when the
+            /// block is present and the parser knew where it was.
+            pub fn line(&self, id: &str) -> Option<u64> {
+                match id {
+                    $( stringify!($id) => self.$id.as_ref().and_then(|r| r.line), )*
+                    _ => None,
+                }
+            }
+
+            /// Moves each block's line with `key_line(id, line)` (from the line of the block's
+            /// value to the line of its key, which the parser does not record).
+            pub fn relocate(&mut self, key_line: impl Fn(&str, u64) -> Option<u64>) {
+                $( if let Some(r) = &mut self.$id
+                    && let Some(line) = r.line
+                {
+                    r.line = key_line(stringify!($id), line).or(Some(line));
+                } )*
+            }
+
             /// Problems with the values in this block, as (key path, message).
             pub fn problems(&self) -> Vec<(String, String)> {
                 let mut out = Vec::new();
                 $( if let Some(r) = &self.$id {
-                    out.extend($id::problems(r).into_iter().map(|(k, m)| (format!("{}.{k}", stringify!($id)), m)));
+                    out.extend($id::problems(&r.value).into_iter().map(|(k, m)| (format!("{}.{k}", stringify!($id)), m)));
                 } )*
                 out
             }

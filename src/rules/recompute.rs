@@ -16,7 +16,8 @@ pub const RULE: RuleInfo = RuleInfo {
     explanation: "When the manifest points at the model's per-example predictions on the test \
 split, this rule recomputes the metric from them (accuracy, balanced accuracy and F1 from the \
 confusion matrix, ROC AUC, log loss, RMSE, MAE and R², each with scikit-learn's definition) and \
-fails when it differs from the reported test score by more than `tolerance`, or when the file \
+fails when it differs from the reported test score by more than `tolerance` (a difference equal \
+to `tolerance` as written passes, whatever the binary rounding), or when the file \
 holds a different number of rows than the evaluation reports. A summary number can be mistyped, \
 computed on another split or cherry-picked; the predictions settle it. The recomputed value and \
 its interval then serve as the test estimate of every other rule: a binomial interval for \
@@ -103,7 +104,7 @@ fn check(subject: &Subject, _ctx: &Context, settings: &RuleSettings) -> Outcome 
         );
     }
     Outcome::judge(
-        (r.value - reported.score).abs() <= tolerance,
+        super::threshold::at_most((r.value - reported.score).abs(), tolerance),
         "Recomputed from {rows} predictions, the score is {recomputed}, matching the reported \
          {reported}.",
         "Recomputed from {rows} predictions, the score is {recomputed}, not the reported \

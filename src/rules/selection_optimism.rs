@@ -3,6 +3,7 @@
 use schemars::JsonSchema;
 use serde::Deserialize;
 
+use super::threshold::{at_least, at_most};
 use super::{Context, Outcome, RuleInfo, RuleSettings, Subject, rule_settings};
 use crate::finding::{Evidence, Quantity, Severity};
 use crate::manifest::Basis;
@@ -54,17 +55,29 @@ configuration were equally good, one of them would score highest by chance (opti
 the winner's curse of model selection). This rule estimates that optimism three ways and reports \
 all of them. (1) Expected maximum: E[max of N standard normals] × the standard error of the \
 selected configuration's CV estimate, with E[max] from numerical integration of \
-N·x·φ(x)·Φ(x)^(N−1) (checked against Harter 1961 and Blom's 1958 approximation). It assumes the N \
-configurations are independent; correlated configurations overstate it, so a manifest may state \
-`effective_configurations`. (2) Best-of-N binomial tail, for accuracy: the probability that the \
-best of N configurations reaches the observed CV score if every configuration's true accuracy \
-were the test score, 1 − F(⌈n·x⌉ − 1; n, p)^N. A large value means luck alone explains the CV \
-score. (3) Tibshirani & Tibshirani (2009), when every trial's fold scores are given: the mean over \
-folds of (best score on that fold − the selected configuration's score on it), which needs no \
-independence assumption; the selected configuration is the one the manifest reports (its \
-`selected_trial`, or the trial whose folds are `cv.folds`), never simply the best trial. For a claim with basis `cv`, the policy's `gate` decides: the claim \
-must not exceed the CV interval's bound shifted by the estimated optimism (or, for the binomial \
-tail when luck explains the CV score, the test interval's bound). A claim with basis `test` \
+N·x·φ(x)·Φ(x)^(N−1) (checked against Harter 1961 and Blom's 1958 approximation). For accuracy \
+the standard error is the Agresti–Coull (1998) form √(p̃(1−p̃)/(n + z²)), p̃ = (x + z²/2)/(n + z²), \
+which stays positive at 0/n and n/n where the plug-in √(p̂(1−p̂)/n) is 0 and would call a perfect \
+CV score exact; for other metrics bounded to [0, 1] the fold standard error is floored the same \
+way (see claim support). It assumes the N configurations are independent; \
+correlated configurations overstate it, so a manifest may state `effective_configurations`. \
+(2) Best-of-N binomial tail, for accuracy: the probability that the best of N configurations \
+reaches the observed CV count k of n rows if every configuration's true accuracy were the test \
+score, 1 − F(k − 1; n, p)^N, on the count correct itself (never re-derived from the rounded \
+proportion; with repeated k-fold, ⌈k/R⌉ of the n distinct rows). (3) Tibshirani & Tibshirani \
+(2009), when every trial's fold scores are given: the mean over folds of (best score on that \
+fold − the selected configuration's score on it), which needs no independence assumption; the \
+selected configuration is the one the manifest reports (its `selected_trial`, or the trial whose \
+folds are `cv.folds`), never simply the best trial. When \
+the selected configuration scores the metric's best value on every fold, no trial can beat it on \
+any fold and this bias is 0 whatever N is (the per-fold maxima are censored), so the expected \
+maximum replaces it and the finding says so. For a claim with basis `cv`, the policy's `gate` \
+decides: the claim must not exceed the CV interval's bound shifted by the chosen estimate of the \
+optimism (the binomial-tail gate uses the unshifted CV interval). Under every gate, when the tail \
+probability is at least 1 − confidence (luck alone explains the CV score), the CV score is no \
+evidence beyond the test split and the claim must also lie within the test interval's bound: a \
+large tail never passes a claim the test split does not support. A claim equal to the bound up \
+to rounding passes. Intervals are clipped to the metric's range. A claim with basis `test` \
 rests on an untouched split and passes; the estimates are reported for information. Remedies: a \
 larger validation set, nested cross-validation, fewer configurations, or a claim on an untouched \
 test split.",
@@ -141,9 +154,19 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
             Quantity::Score,
         ));
     }
-    let tail = match (cv.correct, &subject.test) {
-        (Some(_), Some(test)) if model.metric.is_proportion() => {
-            stats::best_of_n_tail(n, cv.rows, test.value, cv.value).ok()
+    let alpha = 1.0 - ctx.intervals.confidence;
+    // The count correct, never re-derived from the rounded proportion; with repeated k-fold the
+    // CV score k/(R·n) is reached by at least ⌈k/R⌉ of the n distinct rows.
+    let cv_count = search
+        .cv
+        .folds
+        .iter()
+        .map(|f| f.correct)
+        .sum::<Option<u64>>();
+    let tail = match (cv_count, &subject.test) {
+        (Some(k), Some(test)) if model.metric.is_proportion() => {
+            let repeats = u64::from(search.cv.repeats.max(1));
+            stats::best_of_n_tail_count(n, cv.rows, test.value, k.div_ceil(repeats)).ok()
         }
         _ => None,
     };
@@ -180,18 +203,34 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
             Quantity::Score,
         ));
     }
-    let adjusted = match gate {
+    let range = model.metric.range();
+    // At the metric's best value (every fold perfect) the per-fold maxima of the Tibshirani &
+    // Tibshirani estimate are censored: no configuration can beat the selected one on any fold,
+    // so their bias is 0 however many configurations were tried. It measures nothing there, and
+    // the expected maximum (whose standard error does not collapse) takes its place.
+    let best_value = if higher { range.1 } else { range.0 };
+    let censored = n > 1 && cv.value == best_value;
+    let tt_shift = tt.map(|b| {
+        if censored {
+            optimism.map_or(b.bias, |o| b.bias.max(o))
+        } else {
+            b.bias
+        }
+    });
+    if censored && tt.is_some() {
+        evidence.push(Evidence::text(
+            "censored",
+            "Bias correction at the boundary",
+            "the selected configuration is perfect on every fold, so the correction is \
+             replaced by the expected maximum of N normals",
+        ));
+    }
+    let gate_interval = match gate {
         Gate::ExpectedMax => optimism.map(|opt| shift(interval, opt)),
-        Gate::BiasCorrection => tt.map(|b| shift(interval, b.bias)),
-        Gate::BinomialTail => match (tail, subject.test.as_ref().and_then(|t| t.interval)) {
-            (Some(p), Some(test_interval)) if p >= 1.0 - ctx.intervals.confidence => {
-                Some(test_interval)
-            }
-            (Some(_), Some(_)) => Some(interval),
-            _ => None,
-        },
+        Gate::BiasCorrection => tt_shift.map(|b| shift(interval, b)),
+        Gate::BinomialTail => tail.map(|_| interval),
     };
-    let Some(adjusted) = adjusted else {
+    let Some(adjusted) = gate_interval.map(|i| i.clamp_to(range)) else {
         return Outcome::new(
             crate::finding::Status::Inconclusive,
             match gate {
@@ -214,11 +253,31 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
         adjusted,
         ctx.intervals.confidence,
     ));
-    let bound = if higher {
+    let mut bound = if higher {
         adjusted.upper
     } else {
         adjusted.lower
     };
+    // Whatever the gate: when luck of the search explains the CV score (the best of N
+    // configurations, each truly at the test score, reaches it with probability at least α),
+    // the CV score is no evidence beyond the test split, so a CV claim may not exceed what the
+    // test interval supports. A pass next to a large tail therefore always means the claim is
+    // inside the test interval too.
+    let luck = tail.is_some_and(|p| at_least(p, alpha));
+    let test_interval = subject.test.as_ref().and_then(|t| t.interval);
+    if let (true, Some(t)) = (luck, test_interval) {
+        evidence.push(Evidence::interval(
+            "test_interval",
+            "Test interval (luck explains the CV score)",
+            t,
+            ctx.intervals.confidence,
+        ));
+        bound = if higher {
+            bound.min(t.upper)
+        } else {
+            bound.max(t.lower)
+        };
+    }
     evidence.push(Evidence::number(
         "bound",
         "Best score the evidence supports",
@@ -237,14 +296,22 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
         );
     }
     let supported = if higher {
-        model.claim.value <= bound
+        at_most(model.claim.value, bound)
     } else {
-        model.claim.value >= bound
+        at_least(model.claim.value, bound)
+    };
+    let pass = if luck && test_interval.is_some() {
+        "After a search of {configurations} configurations luck explains the CV score (tail \
+         probability {tail_probability}), so the claim is held to the test interval \
+         {test_interval}: the evidence supports up to {bound} ({gate}); the claimed {claim} is \
+         within it."
+    } else {
+        "After a search of {configurations} configurations the CV evidence supports up to \
+         {bound} ({gate}); the claimed {claim} is within it."
     };
     Outcome::judge(
         supported,
-        "After a search of {configurations} configurations the CV evidence supports up to \
-         {bound} ({gate}); the claimed {claim} is within it.",
+        pass,
         "After a search of {configurations} configurations the CV evidence supports only up to \
          {bound} ({gate}); the claimed {claim} is beyond it. The best CV score is partly luck of \
          the search: use a larger validation set, nested cross-validation, fewer configurations, \

@@ -1,7 +1,7 @@
 //! Binomial tail probabilities, including the chance that the best of N configurations reaches a
 //! score by luck alone.
 //!
-//! Owns: [`binomial_sf_ge`] and [`best_of_n_tail`]. Both go through `special::beta_tails`,
+//! Owns: [`binomial_sf_ge`], [`best_of_n_tail_count`] and [`best_of_n_tail`]. Both go through `special::beta_tails`,
 //! never through `statrs::distribution::Binomial` (off by 1.7e-3 at n = 1e6 and 0.15 at n = 1e7).
 //! Must not: compute 1 − F^N directly (it rounds to 0 or 1 wrongly for large N).
 
@@ -37,19 +37,28 @@ pub fn binomial_sf_ge(k: u64, n: u64, p: f64) -> Result<f64> {
 }
 
 /// P(max of `configs` iid Bin(n, p)/n ≥ x): the chance that the best of N configurations, each
-/// truly at p, scores at least x on n rows.
-///
-/// Method: with k = ⌈n·x⌉ (exact for decimal x, see [`ceil_product`]) and F = P(X ≤ k − 1), the
-/// order-statistic identity P(max < k) = F^N gives 1 − F^N, evaluated as −expm1(N·ln F) with
-/// ln F = ln1p(−P(X ≥ k)) when F is near 1 and ln(F) directly when F is small, so the result
-/// neither underflows to a wrong 0 nor rounds to a wrong 1.
+/// truly at p, scores at least x on n rows, with k = ⌈n·x⌉ (exact for decimal x, see
+/// [`ceil_product`]). Prefer [`best_of_n_tail_count`] whenever the count of correct rows is
+/// known: a proportion such as 5/7 = 0.714285714285714 is not a short decimal, and ⌈7 × 0.7142…⌉
+/// may come out one too high.
 /// Errors: configs = 0; n = 0; p or x not in [0, 1].
 pub fn best_of_n_tail(configs: u64, n: u64, p: f64, x: f64) -> Result<f64> {
+    check_unit_closed("x", x)?;
+    best_of_n_tail_count(configs, n, p, ceil_product(n, x))
+}
+
+/// P(max of `configs` iid Bin(n, p) ≥ k): the chance that the best of N configurations, each
+/// truly at p, gets at least k of n rows right.
+///
+/// Method: with F = P(X ≤ k − 1), the order-statistic identity P(max < k) = F^N gives 1 − F^N,
+/// evaluated as −expm1(N·ln F) with ln F = ln1p(−P(X ≥ k)) when F is near 1 and ln(F) directly
+/// when F is small, so the result neither underflows to a wrong 0 nor rounds to a wrong 1.
+/// k = 0 gives 1; k > n gives 0.
+/// Errors: configs = 0; n = 0; p not in [0, 1].
+pub fn best_of_n_tail_count(configs: u64, n: u64, p: f64, k: u64) -> Result<f64> {
     check_nonzero("configs", configs)?;
     check_nonzero("n", n)?;
     check_unit_closed("p", p)?;
-    check_unit_closed("x", x)?;
-    let k = ceil_product(n, x);
     let (at_least, below) = binomial_tails(k, n, p)?;
     let ln_below = if below < 0.5 {
         below.ln()
@@ -79,6 +88,17 @@ mod tests {
         let single = binomial_sf_ge(16, 20, 0.616).unwrap();
         assert!((best_of_n_tail(1, 20, 0.616, 0.8).unwrap() - single).abs() < 1e-15);
         assert_eq!(best_of_n_tail(5, 20, 0.6, 0.0).unwrap(), 1.0);
+    }
+
+    #[test]
+    fn best_of_n_on_the_count() {
+        // scipy 1.17.1: -expm1(N * log1p(-binom.sf(k - 1, n, p))) (tests/reference/edges.py).
+        let v = best_of_n_tail_count(900, 49, 0.61, 40).unwrap();
+        assert!((v - 0.7720389986).abs() < 1e-9, "{v}");
+        let v = best_of_n_tail_count(2, 150, 0.898, 142).unwrap();
+        assert!((v - 0.0510311083).abs() < 1e-9, "{v}");
+        assert_eq!(best_of_n_tail_count(3, 10, 0.5, 0).unwrap(), 1.0);
+        assert_eq!(best_of_n_tail_count(3, 10, 0.5, 11).unwrap(), 0.0);
     }
 
     #[test]

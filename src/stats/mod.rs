@@ -45,7 +45,7 @@ mod special;
 pub use bbc::{
     BbcEstimate, CorrectnessMatrix, Direction, MAX_WORK, OofResults, RowValueMatrix, bbc_cv,
 };
-pub use binomial::{best_of_n_tail, binomial_sf_ge};
+pub use binomial::{best_of_n_tail, best_of_n_tail_count, binomial_sf_ge};
 pub use bootstrap::{
     DEFAULT_RESAMPLES, PairedBootstrap, RegressionStatistic, bootstrap_confusion,
     bootstrap_paired_confusion, bootstrap_rows,
@@ -63,14 +63,15 @@ pub use histogram::{Bin, Histogram};
 pub use loss_difference::{DifferenceEstimate, RegressionDifference};
 pub use mean::{MeanEstimate, mean_t_interval};
 pub use metrics::{ConfusionMatrix, F1Average, LogLoss, MAX_CLASSES, RegressionErrors};
-pub use normal_t::{normal_sf, t_quantile, t_sf, z_two_sided};
+pub use normal_t::{normal_sf, t_quantile, t_sf, z_two_sided, z_two_sided_alpha};
 pub use paired::{
     MCNEMAR_EXACT_BELOW, McNemar, PairedT, PairedTResult, corrected_resampled_t, mcnemar_auto,
     mcnemar_chi2, mcnemar_exact, paired_accuracy_difference,
 };
 pub use proportion::{
-    Interval, ProportionMethod, ZTest, newcombe_difference, proportion_interval,
-    two_proportion_z_test,
+    Interval, ProportionMethod, ZTest, agresti_coull_std_error, newcombe_difference,
+    newcombe_difference_mean, proportion_interval, proportion_interval_mean, two_proportion_z_test,
+    two_proportion_z_test_mean,
 };
 pub use rounding::{ceil_product, count_from_proportion};
 pub use sample_size::{

@@ -30,6 +30,14 @@ pub fn z_two_sided(confidence: f64) -> Result<f64> {
     Ok(SQRT_2 * erfc_inv(1.0 - confidence))
 }
 
+/// z such that P(|Z| > z) = `alpha`: Φ⁻¹(1 − α/2) from α itself, for levels such as a
+/// Bonferroni α/k where 1 − α/k would round to 1 (k = 10¹⁸ at α = 0.05).
+/// Errors: alpha not strictly between 0 and 1.
+pub fn z_two_sided_alpha(alpha: f64) -> Result<f64> {
+    check_unit_open("alpha", alpha)?;
+    Ok(SQRT_2 * erfc_inv(alpha))
+}
+
 /// Upper tail P(Z > z) of the standard normal, as ½·erfc(z/√2) (statrs erfc, about 1e-10
 /// relative in the far tail). ±∞ give 0 and 1. Errors: z is NaN.
 pub fn normal_sf(z: f64) -> Result<f64> {
