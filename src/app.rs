@@ -12,7 +12,7 @@ use crate::finding::Verdict;
 use crate::manifest::{self, Model};
 use crate::policy::Policy;
 use crate::report::templates::{self, Templates};
-use crate::report::{self, terminal, view};
+use crate::report::{self, budget, terminal, view};
 use crate::{evaluate, rules};
 
 /// Writes a line to standard output; a closed or broken pipe is an error the caller passes up
@@ -315,7 +315,9 @@ fn check(args: &CheckArgs) -> Result<Exit> {
             .ok()
     });
     let (Some(policy), Some(today), true) = (policy, today, problems.is_empty()) else {
-        return Ok(report_problems(&problems, "nothing was checked"));
+        let exit = report_problems(&problems, "nothing was checked");
+        write_problem_reports(args, &problems)?;
+        return Ok(exit);
     };
 
     let base_splits = base_report
@@ -337,10 +339,25 @@ fn check(args: &CheckArgs) -> Result<Exit> {
         Some(dir) => Templates::with_overrides(dir)?,
         None => Templates::built_in(),
     };
-    let markdown_text = templates.render(templates::MARKDOWN, &view)?;
+    let prepared = templates.prepare(templates::MARKDOWN, &view)?;
+    let full_report = full_report_names(args);
     let markdown_to_stdout = args.markdown.as_deref() == Some(Path::new("-"));
     if let Some(path) = &args.markdown {
-        write_output(path, &markdown_text)?;
+        let limit = usize::try_from(args.max_chars).unwrap_or(usize::MAX);
+        let text = budget::markdown(
+            &prepared,
+            &view,
+            limit,
+            budget::Measure::Utf16,
+            &full_report,
+        )?;
+        write_output(path, &text)?;
+    }
+    if let Some(path) = &args.markdown_full {
+        write_output(
+            path,
+            &prepared.render(&budget::Layout::full(view.models.len()))?,
+        )?;
     }
     if let Some(path) = &args.json {
         write_output(path, &report::json(&view)?)?;
@@ -349,8 +366,15 @@ fn check(args: &CheckArgs) -> Result<Exit> {
         write_output(path, &templates.render(templates::JUNIT, &view)?)?;
     }
     if let Some(summary) = std::env::var_os("GITHUB_STEP_SUMMARY").filter(|s| !s.is_empty()) {
-        append(Path::new(&summary), &markdown_text)
-            .context("appending the report to GITHUB_STEP_SUMMARY")?;
+        append_step_summary(Path::new(&summary), |limit| {
+            budget::markdown(
+                &prepared,
+                &view,
+                limit,
+                budget::Measure::Bytes,
+                &full_report,
+            )
+        })?;
     }
     let no_color = std::env::var_os("NO_COLOR").is_some_and(|v| !v.is_empty());
     if markdown_to_stdout || args.json.as_deref() == Some(Path::new("-")) {
@@ -373,6 +397,36 @@ fn check(args: &CheckArgs) -> Result<Exit> {
         Verdict::NotSupported => Exit::NotSupported,
         Verdict::Supported | Verdict::SupportedWithWarnings => Exit::Supported,
     })
+}
+
+/// On invalid inputs, the Markdown and JSON reports (when asked for) say "could not check" and
+/// list every problem, so the merge-request comment is replaced rather than left saying what an
+/// earlier run found. JUnit XML is not written: there are no test cases to report.
+fn write_problem_reports(args: &CheckArgs, problems: &[Diagnostic]) -> Result<()> {
+    let view = report::problems::build(problems);
+    let templates = match &args.templates {
+        Some(dir) => Templates::with_overrides(dir)?,
+        None => Templates::built_in(),
+    };
+    let prepared = templates.prepare(templates::PROBLEMS, &view)?;
+    if let Some(path) = &args.markdown {
+        let limit = usize::try_from(args.max_chars).unwrap_or(usize::MAX);
+        let text = report::problems::markdown(&prepared, &view, limit, budget::Measure::Utf16)?;
+        write_output(path, &text)?;
+    }
+    if let Some(path) = &args.markdown_full {
+        let all = budget::Layout::full(view.input_problems.len());
+        write_output(path, &prepared.render(&all)?)?;
+    }
+    if let Some(path) = &args.json {
+        write_output(path, &report::json(&view)?)?;
+    }
+    if let Some(summary) = std::env::var_os("GITHUB_STEP_SUMMARY").filter(|s| !s.is_empty()) {
+        append_step_summary(Path::new(&summary), |limit| {
+            report::problems::markdown(&prepared, &view, limit, budget::Measure::Bytes)
+        })?;
+    }
+    Ok(())
 }
 
 /// Expands glob patterns; a pattern that matches nothing is an input problem.
@@ -450,11 +504,63 @@ fn write_output(path: &Path, text: &str) -> Result<()> {
     std::fs::write(path, text).with_context(|| format!("cannot write {}", path.display()))
 }
 
-fn append(path: &Path, text: &str) -> Result<()> {
+/// Where the whole report is, for the line a cut comment ends with: the file names (never
+/// directories, which say nothing to a reader of the comment) of `--markdown-full` and `--json`.
+fn full_report_names(args: &CheckArgs) -> String {
+    let name = |p: &Option<PathBuf>| {
+        p.as_deref()
+            .filter(|p| *p != Path::new("-"))
+            .and_then(Path::file_name)
+            .map(|n| report::escape::markdown(&n.to_string_lossy()))
+    };
+    let names: Vec<String> = [name(&args.markdown_full), name(&args.json)]
+        .into_iter()
+        .flatten()
+        .collect();
+    if names.is_empty() {
+        "the JSON report and the full Markdown, which this run did not keep (pass --json FILE \
+         and --markdown-full FILE)"
+            .to_owned()
+    } else {
+        format!("{}, kept with the CI job's artifacts", names.join(" and "))
+    }
+}
+
+/// Appends the report to GitHub's step summary: a blank line first, so it never joins the
+/// previous step's text, and the whole within the summary's size limit together with what the
+/// file already holds.
+fn append_step_summary(path: &Path, render: impl Fn(usize) -> Result<String>) -> Result<()> {
+    let context = || {
+        format!(
+            "appending the report to GITHUB_STEP_SUMMARY ({})",
+            path.display()
+        )
+    };
+    let used = match std::fs::metadata(path) {
+        Ok(m) => usize::try_from(m.len()).unwrap_or(usize::MAX),
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => 0,
+        Err(e) => return Err(e).with_context(context),
+    };
+    let room = budget::STEP_SUMMARY_MAX_BYTES
+        .saturating_sub(used)
+        .saturating_sub(1);
+    if room < budget::MIN_MAX_CHARS {
+        errln!(
+            "warning: GITHUB_STEP_SUMMARY already holds {used} bytes; the report was not \
+             appended (the summary's limit is {} bytes)",
+            budget::STEP_SUMMARY_MAX_BYTES
+        );
+        return Ok(());
+    }
+    let text = render(room)?;
     let mut file = std::fs::OpenOptions::new()
         .create(true)
         .append(true)
-        .open(path)?;
-    file.write_all(text.as_bytes())?;
+        .open(path)
+        .with_context(context)?;
+    file.write_all(b"\n")
+        .and_then(|()| file.write_all(text.as_bytes()))
+        .and_then(|()| file.flush())
+        .with_context(context)?;
     Ok(())
 }

@@ -17,6 +17,8 @@ pub struct Cli {
     pub command: Command,
 }
 
+// Parsed once per run: the size of the largest variant costs nothing measurable.
+#[allow(clippy::large_enum_variant)]
 #[derive(Debug, Subcommand)]
 pub enum Command {
     /// Check results manifests against a policy and write the reports.
@@ -121,6 +123,18 @@ pub struct CheckArgs {
     /// Write the Markdown report to FILE (`-` for standard output).
     #[arg(long, value_name = "FILE")]
     pub markdown: Option<PathBuf>,
+
+    /// Limit of the Markdown report in characters (UTF-16 units), for a merge-request comment:
+    /// beyond it, supported models lose their details, then details and table rows are dropped
+    /// from the end (failing models come first), and the report says what it left out.
+    #[arg(long, value_name = "N", default_value_t = 65_000,
+          value_parser = clap::value_parser!(u64).range(2_000..))]
+    pub max_chars: u64,
+
+    /// Write the whole Markdown report, without the --max-chars limit, to FILE (keep it as a
+    /// CI artifact; the comment names it when it had to leave something out).
+    #[arg(long, value_name = "FILE")]
+    pub markdown_full: Option<PathBuf>,
 
     /// Write the JSON report to FILE (`-` for standard output).
     #[arg(long, value_name = "FILE")]

@@ -32,7 +32,7 @@ fn demo_fails_the_unsupported_models_and_reports_key_numbers() {
     let output = demo_with(&["--json", json.to_str().unwrap()]);
     assert_eq!(output.status.code(), Some(1), "{}", stderr(&output));
     let report = Report::read(&json);
-    assert_eq!(report.report_version, 1);
+    assert_eq!(report.report_version, 2);
     assert_eq!(report.verdict, "not_supported");
     assert_eq!(report.counts.models, 5);
     let verdict = |name: &str| report.model(name).verdict.clone();
@@ -190,7 +190,9 @@ fn the_report_is_appended_to_the_github_step_summary() {
         .unwrap();
     assert_eq!(output.status.code(), Some(1));
     let text = std::fs::read_to_string(&summary).unwrap();
-    assert!(text.starts_with("earlier step\n<!-- vetscore:report -->"));
+    // A blank line keeps the report apart from the earlier step's text.
+    assert!(text.starts_with("earlier step\n\n<!-- vetscore:report -->\n"));
+    assert!(text.ends_with('\n'));
     // JSON went to stdout, so the terminal summary went to stderr, uncoloured (not a tty).
     assert!(!stderr(&output).contains('\x1b'));
     serde_json::from_str::<serde_json::Value>(&stdout(&output)).unwrap();

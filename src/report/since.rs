@@ -21,11 +21,24 @@ pub struct BaseReport {
 impl BaseReport {
     /// Parses a base report; errors say what is wrong with it.
     pub fn parse(text: &str) -> Result<BaseReport, String> {
+        // A report whose inputs were invalid has no models to compare with: say so plainly.
+        if let Ok(probe) = serde_json::from_str::<VerdictOnly>(text)
+            && probe.verdict == "could_not_check"
+        {
+            return Err(
+                "the base branch's report says it could not check its inputs (verdict \
+                        \"could not check\"), so there is nothing to compare with; fix the base \
+                        branch first"
+                    .to_owned(),
+            );
+        }
         let base: BaseReport =
             serde_json::from_str(text).map_err(|e| format!("not a vetscore JSON report: {e}"))?;
-        if base.report_version != REPORT_VERSION {
+        // Version 2 only added the could-not-check shape, so a checked report of version 1
+        // compares as before.
+        if !(1..=REPORT_VERSION).contains(&base.report_version) {
             return Err(format!(
-                "expected report version {REPORT_VERSION}, found {}",
+                "expected report version 1 to {REPORT_VERSION}, found {}",
                 base.report_version
             ));
         }
@@ -39,6 +52,11 @@ impl BaseReport {
             .map(|m| (m.name.clone(), m.test_fingerprint.clone()))
             .collect()
     }
+}
+
+#[derive(Debug, Deserialize)]
+struct VerdictOnly {
+    verdict: String,
 }
 
 #[derive(Debug, Deserialize)]

@@ -13,8 +13,9 @@ use crate::manifest::{Basis, Metric};
 use crate::policy::Policy;
 use crate::rules;
 
-/// Version of the JSON report format; bumped on any incompatible change.
-pub const REPORT_VERSION: u32 = 1;
+/// Version of the JSON report format; bumped on any incompatible change. Version 2 added the
+/// report of a run that could not check (`verdict: "could_not_check"`, see `problems.rs`).
+pub const REPORT_VERSION: u32 = 2;
 
 #[derive(Debug, Clone, Serialize, JsonSchema)]
 pub struct View {
@@ -147,7 +148,11 @@ pub struct EvidenceView {
 
 /// Builds the view of an assessment; `base_policy` is the base branch's policy, when given.
 pub fn build(assessment: &Assessment, policy: &Policy, base_policy: Option<&Policy>) -> View {
-    let models: Vec<ModelView> = assessment.models.iter().map(model_view).collect();
+    let mut models: Vec<ModelView> = assessment.models.iter().map(model_view).collect();
+    // Failing models first, then those with warnings: every output lists what needs attention
+    // first, and the comment budget (budget.rs) cuts from the end. The sort is stable, so models
+    // keep the manifests' order within a verdict.
+    models.sort_by_key(|m| m.verdict);
     let count = |v: Verdict| models.iter().filter(|m| m.verdict == v).count();
     View {
         report_version: REPORT_VERSION,
