@@ -298,6 +298,14 @@ fn check(args: &CheckArgs) -> Result<Exit> {
         .base_policy
         .as_ref()
         .and_then(|path| Policy::load(path).map_err(|d| problems.extend(d)).ok());
+    let reviewed = args
+        .reviewed_policies
+        .as_deref()
+        .map(|path| reviewed_digests(path).map_err(|d| problems.extend(d)))
+        .transpose()
+        .ok()
+        .flatten()
+        .unwrap_or_default();
     let models = load_models(&args.manifests, args.root.as_deref(), &mut problems);
     let ledger = match &args.ledger {
         Some(path) => crate::ledger::store::read(path, false)
@@ -323,13 +331,18 @@ fn check(args: &CheckArgs) -> Result<Exit> {
     let base_splits = base_report
         .as_ref()
         .map(report::since::BaseReport::test_splits);
-    let assessment = evaluate::evaluate(
+    let review = rules::PolicyReview {
+        adopting: args.no_base_policy,
+        accepted: policy.file.is_some() && reviewed.contains(&policy.digest),
+    };
+    let assessment = evaluate::evaluate_reviewed(
         models,
         &ledger,
         &policy,
         base_policy.as_ref(),
         base_splits.as_ref(),
         today,
+        review,
     );
     let mut view = view::build(&assessment, &policy, base_policy.as_ref());
     view.since_base = base_report
@@ -427,6 +440,40 @@ fn write_problem_reports(args: &CheckArgs, problems: &[Diagnostic]) -> Result<()
         })?;
     }
     Ok(())
+}
+
+/// Reads the base branch's list of reviewed policy digests: one SHA-256 (64 hex digits,
+/// optionally `sha256:` first) per line; blank lines and `#` comments are ignored, anything else
+/// is an input problem naming its line.
+fn reviewed_digests(path: &Path) -> Result<Vec<String>, Vec<Diagnostic>> {
+    let file = path.display().to_string();
+    let text = crate::input::read_text(path).map_err(|d| vec![d])?;
+    let mut digests = Vec::new();
+    let mut problems = Vec::new();
+    for (i, line) in text.lines().enumerate() {
+        let entry = line.split('#').next().unwrap_or("").trim();
+        if entry.is_empty() {
+            continue;
+        }
+        let hex = entry.strip_prefix("sha256:").unwrap_or(entry);
+        if hex.len() == 64 && hex.bytes().all(|b| b.is_ascii_hexdigit()) {
+            digests.push(hex.to_ascii_lowercase());
+        } else {
+            problems.push(Diagnostic {
+                line: Some(i as u64 + 1),
+                ..Diagnostic::file(
+                    file.clone(),
+                    format!("expected a SHA-256 digest (64 hex digits), found {entry:?}"),
+                )
+                .with_help("copy the digest from the report's policy-change headline")
+            });
+        }
+    }
+    if problems.is_empty() {
+        Ok(digests)
+    } else {
+        Err(problems)
+    }
 }
 
 /// Expands glob patterns; a pattern that matches nothing is an input problem.

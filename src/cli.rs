@@ -159,6 +159,16 @@ pub struct CheckArgs {
     #[arg(long, value_name = "FILE")]
     pub base_policy: Option<PathBuf>,
 
+    /// The base branch has no policy file yet (the change that adopts vetscore): the report says
+    /// there is no policy change to review. States a fact; never implied by a missing file.
+    #[arg(long, conflicts_with = "base_policy")]
+    pub no_base_policy: bool,
+
+    /// The base branch's list of reviewed policies: one SHA-256 digest per line (`#` starts a
+    /// comment). A loosened policy whose digest is listed passes the policy-change rule.
+    #[arg(long, value_name = "FILE")]
+    pub reviewed_policies: Option<PathBuf>,
+
     /// Count the holdout evaluations recorded in this ledger toward the holdout budget.
     #[arg(long, value_name = "FILE")]
     pub ledger: Option<PathBuf>,

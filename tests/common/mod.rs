@@ -44,6 +44,7 @@ pub struct Report {
     pub policy: PolicyInfo,
     pub notes: Vec<String>,
     pub policy_diff: Option<serde_json::Value>,
+    pub policy_review: Option<serde_json::Value>,
     pub since_base: Option<serde_json::Value>,
     pub models: Vec<ModelReport>,
 }
@@ -62,6 +63,7 @@ pub struct Counts {
     pub supported: usize,
     pub with_warnings: usize,
     pub not_supported: usize,
+    pub claims_not_supported: usize,
 }
 
 #[derive(Debug, Deserialize)]
