@@ -70,7 +70,25 @@ pub fn run(cli: Cli) -> Result<Exit> {
             Ok(Exit::Supported)
         }
         Command::Ledger { action } => ledger(action),
-        Command::Init { policy, force } => init(&policy, force),
+        Command::Init {
+            policy,
+            force,
+            ci,
+            ci_output,
+        } => init(&policy, force, ci, ci_output.as_deref()),
+        Command::Completions { shell } => {
+            let mut command = <Cli as clap::CommandFactory>::command();
+            let mut out = Vec::new();
+            clap_complete::generate(shell, &mut command, "vetscore", &mut out);
+            write_output(Path::new("-"), &String::from_utf8_lossy(&out))?;
+            Ok(Exit::Supported)
+        }
+        Command::Man => {
+            let mut out = Vec::new();
+            clap_mangen::Man::new(<Cli as clap::CommandFactory>::command()).render(&mut out)?;
+            write_output(Path::new("-"), &String::from_utf8_lossy(&out))?;
+            Ok(Exit::Supported)
+        }
         Command::Plan(args) => plan(&args),
         Command::CrashForTest => {
             panic!("deliberate crash requested with `vetscore crash-for-test`")
@@ -84,20 +102,62 @@ pub const STARTER_POLICY: &str = include_str!("../templates/starter-policy.yaml"
 pub const GITHUB_ACTIONS: &str = include_str!("../templates/ci/github-actions.yml");
 pub const GITLAB_CI: &str = include_str!("../templates/ci/gitlab-ci.yml");
 
-fn init(policy: &Path, force: bool) -> Result<Exit> {
-    if policy.exists() && !force {
-        let d = Diagnostic::file(
-            policy.display().to_string(),
+/// Writes the starter policy and, with `ci`, the snippet. Only the snippet ever goes to standard
+/// output (with `--ci-output -`); every remark goes to standard error, so a redirect captures a
+/// valid file.
+fn init(
+    policy: &Path,
+    force: bool,
+    ci: Option<crate::cli::CiSystem>,
+    ci_output: Option<&Path>,
+) -> Result<Exit> {
+    use crate::cli::CiSystem;
+    let exists = |path: &Path| {
+        Diagnostic::file(
+            path.display().to_string(),
             "already exists; nothing was written",
         )
-        .with_help("pass --force to overwrite it");
-        return Ok(report_problems(&[d], "nothing was written"));
+        .with_help("pass --force to overwrite it")
+    };
+    let snippet = ci.map(|system| match system {
+        CiSystem::Github => (GITHUB_ACTIONS, Path::new(".github/workflows/vetscore.yml")),
+        CiSystem::Gitlab => (GITLAB_CI, Path::new("vetscore.gitlab-ci.yml")),
+    });
+    let snippet_path = snippet.map(|(_, default)| ci_output.unwrap_or(default));
+    if let Some(path) = snippet_path.filter(|p| *p != Path::new("-") && p.exists() && !force) {
+        return Ok(report_problems(&[exists(path)], "nothing was written"));
     }
-    std::fs::write(policy, STARTER_POLICY)
-        .with_context(|| format!("cannot write {}", policy.display()))?;
-    outln!("Wrote the starter policy to {}.\n", policy.display());
-    outln!("GitHub Actions (.github/workflows/vetscore.yml):\n\n{GITHUB_ACTIONS}");
-    outln!("GitLab CI (.gitlab-ci.yml):\n\n{GITLAB_CI}");
+    if !policy.exists() || force {
+        std::fs::write(policy, STARTER_POLICY)
+            .with_context(|| format!("cannot write {}", policy.display()))?;
+        errln!("Wrote the starter policy to {}.", policy.display());
+    } else if ci.is_some() {
+        errln!("Kept the existing policy {}.", policy.display());
+    } else {
+        return Ok(report_problems(&[exists(policy)], "nothing was written"));
+    }
+    match (snippet, snippet_path) {
+        (Some((text, _)), Some(path)) if path == Path::new("-") => {
+            write_output(path, text)?;
+        }
+        (Some((text, _)), Some(path)) => {
+            if let Some(dir) = path.parent().filter(|d| !d.as_os_str().is_empty()) {
+                std::fs::create_dir_all(dir)
+                    .with_context(|| format!("cannot create {}", dir.display()))?;
+            }
+            write_output(path, text)?;
+            errln!("Wrote the CI snippet to {}.", path.display());
+            if ci == Some(CiSystem::Gitlab) {
+                errln!(
+                    "Include it from .gitlab-ci.yml: `include: {{ local: {} }}`.",
+                    path.display()
+                );
+            }
+        }
+        _ => {
+            errln!("Add the CI snippet with `vetscore init --ci github` or `--ci gitlab`.");
+        }
+    }
     Ok(Exit::Supported)
 }
 
@@ -265,6 +325,10 @@ fn explain(rule: Option<&str>) -> Result<Exit> {
                     d = d.with_help(format!("did you mean `{c}`?"));
                 }
                 errln!("error: {d}");
+                errln!("The rules are:");
+                for r in rules::RULES {
+                    errln!("  {:<18} {}", r.id, r.name);
+                }
                 Ok(Exit::InvalidInput)
             }
         },

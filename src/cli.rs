@@ -33,16 +33,32 @@ pub enum Command {
         #[arg(value_enum)]
         format: SchemaFormat,
     },
-    /// Write a commented starter policy and print CI snippets that run the check and post the
-    /// report as a merge-request comment.
+    /// Write a commented starter policy and, with --ci, the CI snippet that runs the check on the
+    /// main branch and on every merge request and posts the report as a comment.
     Init {
         /// Where to write the starter policy.
         #[arg(long, value_name = "FILE", default_value = "vetscore-policy.yaml")]
         policy: PathBuf,
-        /// Overwrite the policy file if it exists.
+        /// Overwrite the policy file (and the snippet file) if they exist.
         #[arg(long)]
         force: bool,
+        /// Also write the CI snippet for this CI system.
+        #[arg(long, value_enum, value_name = "SYSTEM")]
+        ci: Option<CiSystem>,
+        /// Where to write the snippet (`-` for standard output, with nothing else on it);
+        /// default `.github/workflows/vetscore.yml` or `vetscore.gitlab-ci.yml`.
+        #[arg(long, value_name = "FILE", requires = "ci")]
+        ci_output: Option<PathBuf>,
     },
+    /// Print a shell completion script for SHELL to standard output, e.g.
+    /// `vetscore completions bash > ~/.local/share/bash-completion/completions/vetscore`.
+    Completions {
+        #[arg(value_enum)]
+        shell: clap_complete::Shell,
+    },
+    /// Print the manual page (roff) to standard output, e.g.
+    /// `vetscore man > ~/.local/share/man/man1/vetscore.1`.
+    Man,
     /// Rows a test split needs for a margin of error, and looks it can afford.
     Plan(PlanArgs),
     /// Crash on purpose, so tests can check that a crash never exits 0 (hidden from help).
@@ -98,6 +114,15 @@ pub struct PlanArgs {
     /// Print JSON instead of text.
     #[arg(long)]
     pub json: bool,
+}
+
+/// The CI systems `init --ci` writes a snippet for.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum CiSystem {
+    /// GitHub Actions: a workflow file.
+    Github,
+    /// GitLab CI: a file to `include` from `.gitlab-ci.yml`.
+    Gitlab,
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]

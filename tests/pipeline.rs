@@ -135,11 +135,12 @@ fn a_baseline_that_is_not_a_report_is_invalid_input() {
 }
 
 #[test]
-fn init_writes_the_default_policy_and_prints_the_shipped_ci_snippets() {
+fn init_writes_the_default_policy_and_the_shipped_ci_snippets() {
     let dir = tempfile::tempdir().unwrap();
     let policy = dir.path().join("vetscore-policy.yaml");
     let out = vetscore(&["init", "--policy", policy.to_str().unwrap()]);
     assert_eq!(out.status.code(), Some(0), "{}", stderr(&out));
+    assert_eq!(stdout(&out), "", "remarks go to standard error");
     let written = vetscore::policy::Policy::load(&policy).unwrap();
     let defaults = vetscore::policy::Policy::defaults();
     assert_eq!(
@@ -147,22 +148,69 @@ fn init_writes_the_default_policy_and_prints_the_shipped_ci_snippets() {
         defaults.settings_for("any").0
     );
     assert_eq!(written.confidence, defaults.confidence);
-    let printed = stdout(&out);
-    for example in [
-        ".github/examples/vetscore.yml",
-        ".github/examples/vetscore.gitlab-ci.yml",
+    for (system, example) in [
+        ("github", ".github/examples/vetscore.yml"),
+        ("gitlab", ".github/examples/vetscore.gitlab-ci.yml"),
     ] {
         let text = std::fs::read_to_string(common::root().join(example)).unwrap();
-        assert!(printed.contains(&text), "init does not print {example}");
-        assert!(
-            text.contains("<!-- vetscore:report -->"),
-            "{example} must find the comment by the marker"
+        assert!(text.contains("<!-- vetscore:report -->"));
+        // To standard output with `-`: exactly the file, nothing else.
+        let piped = vetscore(&[
+            "init",
+            "--policy",
+            policy.to_str().unwrap(),
+            "--ci",
+            system,
+            "--ci-output",
+            "-",
+        ]);
+        assert_eq!(piped.status.code(), Some(0), "{}", stderr(&piped));
+        assert_eq!(
+            stdout(&piped),
+            text,
+            "init --ci {system} prints {example} alone"
         );
+        assert!(stderr(&piped).contains("Kept the existing policy"));
+        // To a file, and never over an existing one without --force.
+        let file = dir.path().join(format!("ci/{system}.yml"));
+        let args = [
+            "init",
+            "--policy",
+            policy.to_str().unwrap(),
+            "--ci",
+            system,
+            "--ci-output",
+            file.to_str().unwrap(),
+        ];
+        assert_eq!(vetscore(&args).status.code(), Some(0));
+        assert_eq!(std::fs::read_to_string(&file).unwrap(), text);
+        assert_eq!(vetscore(&args).status.code(), Some(2));
     }
-    // A second run refuses to overwrite.
+    // A second plain run refuses to overwrite the policy.
     let again = vetscore(&["init", "--policy", policy.to_str().unwrap()]);
     assert_eq!(again.status.code(), Some(2));
     assert!(stderr(&again).contains("already exists"));
+}
+
+#[test]
+fn completions_man_page_and_unknown_rules() {
+    let bash = vetscore(&["completions", "bash"]);
+    assert_eq!(bash.status.code(), Some(0));
+    // clap_complete's bash script registers a completion function for the command.
+    assert!(stdout(&bash).contains("complete -F _vetscore"));
+    assert!(stdout(&bash).contains("--max-chars"));
+    let man = vetscore(&["man"]);
+    assert_eq!(man.status.code(), Some(0));
+    // roff: the title header and the command's sections (man-pages(7)).
+    assert!(stdout(&man).contains(".TH vetscore 1"));
+    assert!(stdout(&man).contains(".SH NAME"));
+    let unknown = vetscore(&["explain", "holdout_budgets"]);
+    assert_eq!(unknown.status.code(), Some(2));
+    let listed = stderr(&unknown);
+    assert!(listed.contains("did you mean"), "{listed}");
+    for rule in vetscore::rules::RULES {
+        assert!(listed.contains(rule.id), "{} is not listed", rule.id);
+    }
 }
 
 #[test]
