@@ -639,6 +639,23 @@ fn history(flavour: Flavour) {
     assert!(job.ok, "{flavour:?} main: {}", job.log);
     assert_eq!(world.ledger_entries(), Some(61));
 
+    // A tampered release download fails its checksum: nothing runs and nothing is posted.
+    let posts = world.posts();
+    let archive = world
+        .path("store/releases/download/v0.1.0/vetscore-0.1.0-x86_64-unknown-linux-musl.tar.gz");
+    std::fs::write(&archive, b"not the release").unwrap();
+    world.commit(
+        "tampered",
+        &[(
+            "runs/run-3.yaml",
+            Some(manifest(&[("quince-c".into(), "0.31")])),
+        )],
+    );
+    let job = world.pipeline("tampered", Some(3));
+    assert!(!job.ok, "{flavour:?}: a bad checksum must fail the job");
+    assert!(job.log.contains("FAILED"), "{}", job.log);
+    assert_eq!(world.posts(), posts, "{flavour:?}: nothing posted");
+
     // The reviewer's own comment carrying the marker was never touched.
     let foreign = world.comments().into_iter().find(|c| c["id"] == 7).unwrap();
     assert!(
@@ -653,8 +670,8 @@ fn history(flavour: Flavour) {
         calls
             .matches("https://releases.sim/download/v0.1.0/")
             .count(),
-        6,
-        "{flavour:?}: one verified download per job"
+        7,
+        "{flavour:?}: one download per job"
     );
 }
 
