@@ -13,7 +13,7 @@ use crate::finding::Verdict;
 use crate::manifest::{self, Model};
 use crate::policy::Policy;
 use crate::report::templates::{self, Templates};
-use crate::report::{self, terminal, view};
+use crate::report::{self, budget, terminal, view};
 use crate::{evaluate, rules};
 
 /// Writes a line to standard output through the console; a closed or broken pipe is an error
@@ -128,7 +128,25 @@ fn run_command(command: Command) -> Result<Exit> {
             Ok(Exit::Supported)
         }
         Command::Ledger { action } => ledger(action),
-        Command::Init { policy, force } => init(&policy, force),
+        Command::Init {
+            policy,
+            force,
+            ci,
+            ci_output,
+        } => init(&policy, force, ci, ci_output.as_deref()),
+        Command::Completions { shell } => {
+            let mut command = <Cli as clap::CommandFactory>::command();
+            let mut out = Vec::new();
+            clap_complete::generate(shell, &mut command, "vetscore", &mut out);
+            write_output(Path::new("-"), &String::from_utf8_lossy(&out))?;
+            Ok(Exit::Supported)
+        }
+        Command::Man => {
+            let mut out = Vec::new();
+            clap_mangen::Man::new(<Cli as clap::CommandFactory>::command()).render(&mut out)?;
+            write_output(Path::new("-"), &String::from_utf8_lossy(&out))?;
+            Ok(Exit::Supported)
+        }
         Command::Plan(args) => plan(&args),
         Command::CrashForTest => {
             panic!("deliberate crash requested with `vetscore crash-for-test`")
@@ -142,20 +160,62 @@ pub const STARTER_POLICY: &str = include_str!("../templates/starter-policy.yaml"
 pub const GITHUB_ACTIONS: &str = include_str!("../templates/ci/github-actions.yml");
 pub const GITLAB_CI: &str = include_str!("../templates/ci/gitlab-ci.yml");
 
-fn init(policy: &Path, force: bool) -> Result<Exit> {
-    if policy.exists() && !force {
-        let d = Diagnostic::file(
-            policy.display().to_string(),
+/// Writes the starter policy and, with `ci`, the snippet. Only the snippet ever goes to standard
+/// output (with `--ci-output -`); every remark goes to standard error, so a redirect captures a
+/// valid file.
+fn init(
+    policy: &Path,
+    force: bool,
+    ci: Option<crate::cli::CiSystem>,
+    ci_output: Option<&Path>,
+) -> Result<Exit> {
+    use crate::cli::CiSystem;
+    let exists = |path: &Path| {
+        Diagnostic::file(
+            path.display().to_string(),
             "already exists; nothing was written",
         )
-        .with_help("pass --force to overwrite it");
-        return Ok(report_problems(&[d], "nothing was written"));
+        .with_help("pass --force to overwrite it")
+    };
+    let snippet = ci.map(|system| match system {
+        CiSystem::Github => (GITHUB_ACTIONS, Path::new(".github/workflows/vetscore.yml")),
+        CiSystem::Gitlab => (GITLAB_CI, Path::new("vetscore.gitlab-ci.yml")),
+    });
+    let snippet_path = snippet.map(|(_, default)| ci_output.unwrap_or(default));
+    if let Some(path) = snippet_path.filter(|p| *p != Path::new("-") && p.exists() && !force) {
+        return Ok(report_problems(&[exists(path)], "nothing was written"));
     }
-    std::fs::write(policy, STARTER_POLICY)
-        .with_context(|| format!("cannot write {}", policy.display()))?;
-    outln!("Wrote the starter policy to {}.\n", policy.display());
-    outln!("GitHub Actions (.github/workflows/vetscore.yml):\n\n{GITHUB_ACTIONS}");
-    outln!("GitLab CI (.gitlab-ci.yml):\n\n{GITLAB_CI}");
+    if !policy.exists() || force {
+        std::fs::write(policy, STARTER_POLICY)
+            .with_context(|| format!("cannot write {}", policy.display()))?;
+        errln!("Wrote the starter policy to {}.", policy.display());
+    } else if ci.is_some() {
+        errln!("Kept the existing policy {}.", policy.display());
+    } else {
+        return Ok(report_problems(&[exists(policy)], "nothing was written"));
+    }
+    match (snippet, snippet_path) {
+        (Some((text, _)), Some(path)) if path == Path::new("-") => {
+            write_output(path, text)?;
+        }
+        (Some((text, _)), Some(path)) => {
+            if let Some(dir) = path.parent().filter(|d| !d.as_os_str().is_empty()) {
+                std::fs::create_dir_all(dir)
+                    .with_context(|| format!("cannot create {}", dir.display()))?;
+            }
+            write_output(path, text)?;
+            errln!("Wrote the CI snippet to {}.", path.display());
+            if ci == Some(CiSystem::Gitlab) {
+                errln!(
+                    "Include it from .gitlab-ci.yml: `include: {{ local: {} }}`.",
+                    path.display()
+                );
+            }
+        }
+        _ => {
+            errln!("Add the CI snippet with `vetscore init --ci github` or `--ci gitlab`.");
+        }
+    }
     Ok(Exit::Supported)
 }
 
@@ -398,6 +458,10 @@ fn explain(rule: Option<&str>) -> Result<Exit> {
                     d = d.with_help(format!("did you mean `{c}`?"));
                 }
                 errln!("error: {d}");
+                errln!("The rules are:");
+                for r in rules::RULES {
+                    errln!("  {:<18} {}", r.id, r.name);
+                }
                 Ok(Exit::InvalidInput)
             }
         },
@@ -440,6 +504,14 @@ fn check(args: &CheckArgs) -> Result<Exit> {
         .base_policy
         .as_ref()
         .and_then(|path| Policy::load(path).map_err(|d| problems.extend(d)).ok());
+    let reviewed = args
+        .reviewed_policies
+        .as_deref()
+        .map(|path| reviewed_digests(path).map_err(|d| problems.extend(d)))
+        .transpose()
+        .ok()
+        .flatten()
+        .unwrap_or_default();
     let models = load_models(&args.manifests, args.root.as_deref(), &mut problems);
     let base_report = args.baseline.as_ref().and_then(|path| {
         crate::opener::read_text(Some(path), crate::opener::Kind::BaseReport)
@@ -462,19 +534,26 @@ fn check(args: &CheckArgs) -> Result<Exit> {
         )
     });
     let (Some(policy), Some(today), true) = (policy, today, problems.is_empty()) else {
-        return Ok(report_problems(&problems, "nothing was checked"));
+        let exit = report_problems(&problems, "nothing was checked");
+        write_problem_reports(args, &problems)?;
+        return Ok(exit);
     };
 
     let base_splits = base_report
         .as_ref()
         .map(report::since::BaseReport::test_splits);
-    let assessment = evaluate::evaluate(
+    let review = rules::PolicyReview {
+        adopting: args.no_base_policy,
+        accepted: policy.file.is_some() && reviewed.contains(&policy.digest),
+    };
+    let assessment = evaluate::evaluate_reviewed(
         models,
         ledger.as_ref().map_or(&[][..], |(l, _)| &l.entries),
         &policy,
         base_policy.as_ref(),
         base_splits.as_ref(),
         today,
+        review,
     );
     let mut view = view::build(&assessment, &policy, base_policy.as_ref());
     view.since_base = base_report
@@ -485,10 +564,25 @@ fn check(args: &CheckArgs) -> Result<Exit> {
         Some(dir) => Templates::with_overrides(dir)?,
         None => Templates::built_in(),
     };
-    let markdown_text = templates.render(templates::MARKDOWN, &view)?;
+    let prepared = templates.prepare(templates::MARKDOWN, &view)?;
+    let full_report = full_report_names(args);
     let markdown_to_stdout = args.markdown.as_deref() == Some(Path::new("-"));
     if let Some(path) = &args.markdown {
-        write_output(path, &markdown_text)?;
+        let limit = usize::try_from(args.max_chars).unwrap_or(usize::MAX);
+        let text = budget::markdown(
+            &prepared,
+            &view,
+            limit,
+            budget::Measure::Utf16,
+            &full_report,
+        )?;
+        write_output(path, &text)?;
+    }
+    if let Some(path) = &args.markdown_full {
+        write_output(
+            path,
+            &prepared.render(&budget::Layout::full(view.models.len()))?,
+        )?;
     }
     if let Some(path) = &args.json {
         write_output(path, &report::json(&view)?)?;
@@ -497,8 +591,15 @@ fn check(args: &CheckArgs) -> Result<Exit> {
         write_output(path, &templates.render(templates::JUNIT, &view)?)?;
     }
     if let Some(summary) = std::env::var_os("GITHUB_STEP_SUMMARY").filter(|s| !s.is_empty()) {
-        append(Path::new(&summary), &markdown_text)
-            .context("appending the report to GITHUB_STEP_SUMMARY")?;
+        append_step_summary(Path::new(&summary), |limit| {
+            budget::markdown(
+                &prepared,
+                &view,
+                limit,
+                budget::Measure::Bytes,
+                &full_report,
+            )
+        })?;
     }
     if github_actions() {
         for annotation in finding_annotations(&view) {
@@ -615,6 +716,71 @@ fn finding_annotations(view: &view::View) -> Vec<Annotation> {
     out
 }
 
+/// On invalid inputs, the Markdown and JSON reports (when asked for) say "could not check" and
+/// list every problem, so the merge-request comment is replaced rather than left saying what an
+/// earlier run found. JUnit XML is not written: there are no test cases to report.
+fn write_problem_reports(args: &CheckArgs, problems: &[Diagnostic]) -> Result<()> {
+    let view = report::problems::build(problems);
+    let templates = match &args.templates {
+        Some(dir) => Templates::with_overrides(dir)?,
+        None => Templates::built_in(),
+    };
+    let prepared = templates.prepare(templates::PROBLEMS, &view)?;
+    if let Some(path) = &args.markdown {
+        let limit = usize::try_from(args.max_chars).unwrap_or(usize::MAX);
+        let text = report::problems::markdown(&prepared, &view, limit, budget::Measure::Utf16)?;
+        write_output(path, &text)?;
+    }
+    if let Some(path) = &args.markdown_full {
+        let all = budget::Layout::full(view.input_problems.len());
+        write_output(path, &prepared.render(&all)?)?;
+    }
+    if let Some(path) = &args.json {
+        write_output(path, &report::json(&view)?)?;
+    }
+    if let Some(summary) = std::env::var_os("GITHUB_STEP_SUMMARY").filter(|s| !s.is_empty()) {
+        append_step_summary(Path::new(&summary), |limit| {
+            report::problems::markdown(&prepared, &view, limit, budget::Measure::Bytes)
+        })?;
+    }
+    Ok(())
+}
+
+/// Reads the base branch's list of reviewed policy digests: one SHA-256 (64 hex digits,
+/// optionally `sha256:` first) per line; blank lines and `#` comments are ignored, anything else
+/// is an input problem naming its line.
+fn reviewed_digests(path: &Path) -> Result<Vec<String>, Vec<Diagnostic>> {
+    let file = path.display().to_string();
+    let text = crate::opener::read_text(Some(path), crate::opener::Kind::ReviewedPolicies)
+        .map_err(|d| vec![d])?;
+    let mut digests = Vec::new();
+    let mut problems = Vec::new();
+    for (i, line) in text.lines().enumerate() {
+        let entry = line.split('#').next().unwrap_or("").trim();
+        if entry.is_empty() {
+            continue;
+        }
+        let hex = entry.strip_prefix("sha256:").unwrap_or(entry);
+        if hex.len() == 64 && hex.bytes().all(|b| b.is_ascii_hexdigit()) {
+            digests.push(hex.to_ascii_lowercase());
+        } else {
+            problems.push(Diagnostic {
+                line: Some(i as u64 + 1),
+                ..Diagnostic::file(
+                    file.clone(),
+                    format!("expected a SHA-256 digest (64 hex digits), found {entry:?}"),
+                )
+                .with_help("copy the digest from the report's policy-change headline")
+            });
+        }
+    }
+    if problems.is_empty() {
+        Ok(digests)
+    } else {
+        Err(problems)
+    }
+}
+
 /// Expands glob patterns; a pattern that matches nothing is an input problem.
 fn expand(patterns: &[String], problems: &mut Vec<Diagnostic>) -> Vec<PathBuf> {
     let mut paths = Vec::new();
@@ -672,6 +838,9 @@ fn walk_glob(pattern: &str, problems: &mut Vec<Diagnostic>) -> Result<Vec<PathBu
     while let Some(dir) = pending.pop() {
         let entries = match std::fs::read_dir(&dir) {
             Ok(entries) => entries,
+            // A directory the pattern names that does not exist matches nothing; the caller
+            // says "pattern matched no file" once.
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => continue,
             Err(e) => {
                 problems.push(Diagnostic::file(
                     dir.display().to_string(),
@@ -758,13 +927,63 @@ fn write_output(path: &Path, text: &str) -> Result<()> {
         .with_context(|| format!("cannot write {}", path.display()))
 }
 
-fn append(path: &Path, text: &str) -> Result<()> {
+/// Where the whole report is, for the line a cut comment ends with: the file names (never
+/// directories, which say nothing to a reader of the comment) of `--markdown-full` and `--json`.
+fn full_report_names(args: &CheckArgs) -> String {
+    let name = |p: &Option<PathBuf>| {
+        p.as_deref()
+            .filter(|p| *p != Path::new("-"))
+            .and_then(Path::file_name)
+            .map(|n| report::escape::markdown(&n.to_string_lossy()))
+    };
+    let names: Vec<String> = [name(&args.markdown_full), name(&args.json)]
+        .into_iter()
+        .flatten()
+        .collect();
+    if names.is_empty() {
+        "the JSON report and the full Markdown, which this run did not keep (pass --json FILE \
+         and --markdown-full FILE)"
+            .to_owned()
+    } else {
+        format!("{}, kept with the CI job's artifacts", names.join(" and "))
+    }
+}
+
+/// Appends the report to GitHub's step summary: a blank line first, so it never joins the
+/// previous step's text, and the whole within the summary's size limit together with what the
+/// file already holds.
+fn append_step_summary(path: &Path, render: impl Fn(usize) -> Result<String>) -> Result<()> {
+    let context = || {
+        format!(
+            "appending the report to GITHUB_STEP_SUMMARY ({})",
+            path.display()
+        )
+    };
+    let used = match std::fs::metadata(path) {
+        Ok(m) => usize::try_from(m.len()).unwrap_or(usize::MAX),
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => 0,
+        Err(e) => return Err(e).with_context(context),
+    };
+    let room = budget::STEP_SUMMARY_MAX_BYTES
+        .saturating_sub(used)
+        .saturating_sub(1);
+    if room < budget::MIN_MAX_CHARS {
+        errln!(
+            "warning: GITHUB_STEP_SUMMARY already holds {used} bytes; the report was not \
+             appended (the summary's limit is {} bytes)",
+            budget::STEP_SUMMARY_MAX_BYTES
+        );
+        return Ok(());
+    }
+    let text = render(room)?;
     let mut file = std::fs::OpenOptions::new()
         .create(true)
         .append(true)
         .open(path)
-        .with_context(|| format!("cannot open {}", path.display()))?;
-    file.write_all(text.as_bytes())
+        .with_context(context)?;
+    file.write_all(b"\n")
+        .and_then(|()| file.write_all(text.as_bytes()))
         .and_then(|()| file.sync_data())
-        .with_context(|| format!("cannot write {}", path.display()))
+        .with_context(context)?;
+    Ok(())
 }

@@ -29,6 +29,8 @@ pub enum Color {
     Never,
 }
 
+// Parsed once per run: the size of the largest variant costs nothing measurable.
+#[allow(clippy::large_enum_variant)]
 #[derive(Debug, Subcommand)]
 pub enum Command {
     /// Check results manifests against a policy and write the reports.
@@ -43,16 +45,32 @@ pub enum Command {
         #[arg(value_enum)]
         format: SchemaFormat,
     },
-    /// Write a commented starter policy and print CI snippets that run the check and post the
-    /// report as a merge-request comment.
+    /// Write a commented starter policy and, with --ci, the CI snippet that runs the check on the
+    /// main branch and on every merge request and posts the report as a comment.
     Init {
         /// Where to write the starter policy.
         #[arg(long, value_name = "FILE", default_value = "vetscore-policy.yaml")]
         policy: PathBuf,
-        /// Overwrite the policy file if it exists.
+        /// Overwrite the policy file (and the snippet file) if they exist.
         #[arg(long)]
         force: bool,
+        /// Also write the CI snippet for this CI system.
+        #[arg(long, value_enum, value_name = "SYSTEM")]
+        ci: Option<CiSystem>,
+        /// Where to write the snippet (`-` for standard output, with nothing else on it);
+        /// default `.github/workflows/vetscore.yml` or `vetscore.gitlab-ci.yml`.
+        #[arg(long, value_name = "FILE", requires = "ci")]
+        ci_output: Option<PathBuf>,
     },
+    /// Print a shell completion script for SHELL to standard output, e.g.
+    /// `vetscore completions bash > ~/.local/share/bash-completion/completions/vetscore`.
+    Completions {
+        #[arg(value_enum)]
+        shell: clap_complete::Shell,
+    },
+    /// Print the manual page (roff) to standard output, e.g.
+    /// `vetscore man > ~/.local/share/man/man1/vetscore.1`.
+    Man,
     /// Rows a test split needs for a margin of error, and looks it can afford.
     Plan(PlanArgs),
     /// Crash on purpose, so tests can check that a crash never exits 0 (hidden from help).
@@ -125,6 +143,15 @@ pub struct PlanArgs {
     pub json: bool,
 }
 
+/// The CI systems `init --ci` writes a snippet for.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum CiSystem {
+    /// GitHub Actions: a workflow file.
+    Github,
+    /// GitLab CI: a file to `include` from `.gitlab-ci.yml`.
+    Gitlab,
+}
+
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
 pub enum SchemaFormat {
     /// The results manifest a training job writes.
@@ -150,6 +177,18 @@ pub struct CheckArgs {
     #[arg(long, value_name = "FILE")]
     pub markdown: Option<PathBuf>,
 
+    /// Limit of the Markdown report in characters (UTF-16 units), for a merge-request comment:
+    /// beyond it, supported models lose their details, then details and table rows are dropped
+    /// from the end (failing models come first), and the report says what it left out.
+    #[arg(long, value_name = "N", default_value_t = 65_000,
+          value_parser = clap::value_parser!(u64).range(2_000..))]
+    pub max_chars: u64,
+
+    /// Write the whole Markdown report, without the --max-chars limit, to FILE (keep it as a
+    /// CI artifact; the comment names it when it had to leave something out).
+    #[arg(long, value_name = "FILE")]
+    pub markdown_full: Option<PathBuf>,
+
     /// Write the JSON report to FILE (`-` for standard output).
     #[arg(long, value_name = "FILE")]
     pub json: Option<PathBuf>,
@@ -172,6 +211,16 @@ pub struct CheckArgs {
     /// report shows the diff.
     #[arg(long, value_name = "FILE")]
     pub base_policy: Option<PathBuf>,
+
+    /// The base branch has no policy file yet (the change that adopts vetscore): the report says
+    /// there is no policy change to review. States a fact; never implied by a missing file.
+    #[arg(long, conflicts_with = "base_policy")]
+    pub no_base_policy: bool,
+
+    /// The base branch's list of reviewed policies: one SHA-256 digest per line (`#` starts a
+    /// comment). A loosened policy whose digest is listed passes the policy-change rule.
+    #[arg(long, value_name = "FILE")]
+    pub reviewed_policies: Option<PathBuf>,
 
     /// Count the holdout evaluations recorded in this ledger toward the holdout budget. A
     /// missing file is an empty ledger (the report says so). The ledger must extend the trusted

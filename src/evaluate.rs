@@ -8,7 +8,7 @@ use crate::finding::{Finding, PolicySource, Severity, Status, Verdict, WaiverNot
 use crate::ledger;
 use crate::manifest::Model;
 use crate::policy::{Inconclusive, Policy};
-use crate::rules::{BasePolicy, Context, HoldoutUse, RULES, Subject, WaiverView};
+use crate::rules::{BasePolicy, Context, HoldoutUse, PolicyReview, RULES, Subject, WaiverView};
 
 /// The outcome of a whole check.
 #[derive(Debug, Clone)]
@@ -38,6 +38,27 @@ pub fn evaluate(
     base_policy: Option<&Policy>,
     base_splits: Option<&BTreeMap<String, String>>,
     today: jiff::civil::Date,
+) -> Assessment {
+    evaluate_reviewed(
+        models,
+        ledger,
+        policy,
+        base_policy,
+        base_splits,
+        today,
+        PolicyReview::default(),
+    )
+}
+
+/// [`evaluate`], with what the base branch says about reviewing this change's policy.
+pub fn evaluate_reviewed(
+    models: Vec<Model>,
+    ledger: &[ledger::Entry],
+    policy: &Policy,
+    base_policy: Option<&Policy>,
+    base_splits: Option<&BTreeMap<String, String>>,
+    today: jiff::civil::Date,
+    review: PolicyReview,
 ) -> Assessment {
     let mut holdout_uses: BTreeMap<String, Vec<HoldoutUse>> = BTreeMap::new();
     let mut keys = std::collections::HashSet::new();
@@ -81,6 +102,7 @@ pub fn evaluate(
         inconclusive_fails: policy.inconclusive == Inconclusive::Fail,
         base: None,
         base_split: None,
+        review,
     };
     let assessed: Vec<ModelAssessment> = models
         .into_iter()

@@ -61,6 +61,8 @@ pub enum Kind {
     Ledger,
     /// The base branch's JSON report (`--baseline`), read whole.
     BaseReport,
+    /// The base branch's list of reviewed policy digests (`--reviewed-policies`).
+    ReviewedPolicies,
     /// A report template from `--templates DIR`, read whole.
     Template,
 }
@@ -94,7 +96,7 @@ impl Kind {
             Kind::TrialsResultsJson => 256 * MIB,
             Kind::Predictions | Kind::Ids => 4096 * MIB,
             Kind::Ledger => 256 * MIB,
-            Kind::Template => MIB,
+            Kind::Template | Kind::ReviewedPolicies => MIB,
         }
     }
 
@@ -109,13 +111,14 @@ impl Kind {
             Kind::Ledger => "ledger",
             Kind::BaseReport => "base report",
             Kind::Template => "template",
+            Kind::ReviewedPolicies => "reviewed-policy list",
         }
     }
 
     const fn framing(self) -> Framing {
         match self {
             Kind::TrialsCsv | Kind::Predictions => Framing::Csv,
-            Kind::TrialsJsonl | Kind::Ids | Kind::Ledger => Framing::Lines,
+            Kind::TrialsJsonl | Kind::Ids | Kind::Ledger | Kind::ReviewedPolicies => Framing::Lines,
             Kind::Manifest
             | Kind::StdinManifest
             | Kind::Policy

@@ -190,7 +190,9 @@ fn the_report_is_appended_to_the_github_step_summary() {
         .unwrap();
     assert_eq!(output.status.code(), Some(1));
     let text = std::fs::read_to_string(&summary).unwrap();
-    assert!(text.starts_with("earlier step\n<!-- vetscore:report -->"));
+    // A blank line keeps the report apart from the earlier step's text.
+    assert!(text.starts_with("earlier step\n\n<!-- vetscore:report -->\n"));
+    assert!(text.ends_with('\n'));
     // JSON went to stdout, so the terminal summary went to stderr, uncoloured (not a tty).
     assert!(!stderr(&output).contains('\x1b'));
     serde_json::from_str::<serde_json::Value>(&stdout(&output)).unwrap();

@@ -135,11 +135,12 @@ fn a_baseline_that_is_not_a_report_is_invalid_input() {
 }
 
 #[test]
-fn init_writes_the_default_policy_and_prints_the_shipped_ci_snippets() {
+fn init_writes_the_default_policy_and_the_shipped_ci_snippets() {
     let dir = tempfile::tempdir().unwrap();
     let policy = dir.path().join("vetscore-policy.yaml");
     let out = vetscore(&["init", "--policy", policy.to_str().unwrap()]);
     assert_eq!(out.status.code(), Some(0), "{}", stderr(&out));
+    assert_eq!(stdout(&out), "", "remarks go to standard error");
     let written = vetscore::policy::Policy::load(&policy).unwrap();
     let defaults = vetscore::policy::Policy::defaults();
     assert_eq!(
@@ -147,22 +148,69 @@ fn init_writes_the_default_policy_and_prints_the_shipped_ci_snippets() {
         defaults.settings_for("any").0
     );
     assert_eq!(written.confidence, defaults.confidence);
-    let printed = stdout(&out);
-    for example in [
-        ".github/examples/vetscore.yml",
-        ".github/examples/vetscore.gitlab-ci.yml",
+    for (system, example) in [
+        ("github", ".github/examples/vetscore.yml"),
+        ("gitlab", ".github/examples/vetscore.gitlab-ci.yml"),
     ] {
         let text = std::fs::read_to_string(common::root().join(example)).unwrap();
-        assert!(printed.contains(&text), "init does not print {example}");
-        assert!(
-            text.contains("<!-- vetscore:report -->"),
-            "{example} must find the comment by the marker"
+        assert!(text.contains("<!-- vetscore:report -->"));
+        // To standard output with `-`: exactly the file, nothing else.
+        let piped = vetscore(&[
+            "init",
+            "--policy",
+            policy.to_str().unwrap(),
+            "--ci",
+            system,
+            "--ci-output",
+            "-",
+        ]);
+        assert_eq!(piped.status.code(), Some(0), "{}", stderr(&piped));
+        assert_eq!(
+            stdout(&piped),
+            text,
+            "init --ci {system} prints {example} alone"
         );
+        assert!(stderr(&piped).contains("Kept the existing policy"));
+        // To a file, and never over an existing one without --force.
+        let file = dir.path().join(format!("ci/{system}.yml"));
+        let args = [
+            "init",
+            "--policy",
+            policy.to_str().unwrap(),
+            "--ci",
+            system,
+            "--ci-output",
+            file.to_str().unwrap(),
+        ];
+        assert_eq!(vetscore(&args).status.code(), Some(0));
+        assert_eq!(std::fs::read_to_string(&file).unwrap(), text);
+        assert_eq!(vetscore(&args).status.code(), Some(2));
     }
-    // A second run refuses to overwrite.
+    // A second plain run refuses to overwrite the policy.
     let again = vetscore(&["init", "--policy", policy.to_str().unwrap()]);
     assert_eq!(again.status.code(), Some(2));
     assert!(stderr(&again).contains("already exists"));
+}
+
+#[test]
+fn completions_man_page_and_unknown_rules() {
+    let bash = vetscore(&["completions", "bash"]);
+    assert_eq!(bash.status.code(), Some(0));
+    // clap_complete's bash script registers a completion function for the command.
+    assert!(stdout(&bash).contains("complete -F _vetscore"));
+    assert!(stdout(&bash).contains("--max-chars"));
+    let man = vetscore(&["man"]);
+    assert_eq!(man.status.code(), Some(0));
+    // roff: the title header and the command's sections (man-pages(7)).
+    assert!(stdout(&man).contains(".TH vetscore 1"));
+    assert!(stdout(&man).contains(".SH NAME"));
+    let unknown = vetscore(&["explain", "holdout_budgets"]);
+    assert_eq!(unknown.status.code(), Some(2));
+    let listed = stderr(&unknown);
+    assert!(listed.contains("did you mean"), "{listed}");
+    for rule in vetscore::rules::RULES {
+        assert!(listed.contains(rule.id), "{} is not listed", rule.id);
+    }
 }
 
 #[test]
@@ -217,8 +265,11 @@ fn the_readme_merge_request_story_holds() {
     assert!(stdout(&append).contains("9 new entries"));
     let json = dir.path().join("report.json");
     let junit = dir.path().join("junit.xml");
+    let comment = dir.path().join("comment.md");
     let out = vetscore(&[
         "check",
+        "--markdown",
+        comment.to_str().unwrap(),
         "--policy",
         "fixtures/demo/merge-request/policy.yaml",
         "--base-policy",
@@ -278,6 +329,138 @@ fn the_readme_merge_request_story_holds() {
             .contains("+    max_evaluations: 6")
     );
     assert!(junit.exists());
+
+    // The headline tells the truth: the policy change once, and the one model its own evidence
+    // does not support (knn-small, whose claim fails under either policy).
+    let markdown = std::fs::read_to_string(&comment).unwrap();
+    assert_eq!(
+        markdown
+            .matches("**Blocked until the policy change is reviewed.**")
+            .count(),
+        1
+    );
+    assert!(markdown.contains("**1 of 6 model claims are not supported by their own evidence**"));
+    assert!(
+        !markdown.contains("- **Policy change**"),
+        "no per-model bullet"
+    );
+    assert!(!markdown.contains("Tightened: "), "no empty list");
+    assert_eq!(report["counts"]["claims_not_supported"], 1);
+    assert_eq!(report["policy_review"]["models"], 6);
+    // sha256sum fixtures/demo/merge-request/policy.yaml (GNU coreutils).
+    let digest = "5ee7eae70f2b1e9f2d72b7bd6e3c572ae93e91e9e79b83d1238467d1774d5e6d";
+    assert_eq!(report["policy_review"]["digest"], digest);
+    readme_excerpt_is_in(&markdown);
+
+    // A reviewer accepts the change on the base branch: the same merge request now fails only
+    // for knn-small.
+    let reviewed = dir.path().join("vetscore-reviewed-policies.txt");
+    std::fs::write(
+        &reviewed,
+        format!("# reviewed\nsha256:{digest}  # budget 3 -> 6\n"),
+    )
+    .unwrap();
+    let accepted = vetscore(&[
+        "check",
+        "--json",
+        json.to_str().unwrap(),
+        "--policy",
+        "fixtures/demo/merge-request/policy.yaml",
+        "--base-policy",
+        DEMO_POLICY,
+        "--reviewed-policies",
+        reviewed.to_str().unwrap(),
+        "--ledger",
+        ledger.to_str().unwrap(),
+        "--today",
+        "2026-12-01",
+        "fixtures/demo/merge-request/manifests/*",
+    ]);
+    assert_eq!(accepted.status.code(), Some(1), "{}", stderr(&accepted));
+    let report: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&json).unwrap()).unwrap();
+    assert!(report["policy_review"].is_null());
+    assert_eq!(report["counts"]["not_supported"], 1);
+    let knn = report["models"].as_array().unwrap()[0].clone();
+    assert_eq!(knn["name"], "ripeness-knn-small", "failing models first");
+    for m in report["models"].as_array().unwrap() {
+        let change = m["findings"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|f| f["rule"] == "policy_change")
+            .unwrap();
+        assert_eq!(change["status"], "pass");
+        assert!(change["message"].as_str().unwrap().contains("accepted"));
+    }
+    // A malformed list is an input problem naming its line.
+    std::fs::write(&reviewed, "sha256:5ee7\n").unwrap();
+    let bad = vetscore(&[
+        "check",
+        "--reviewed-policies",
+        reviewed.to_str().unwrap(),
+        "fixtures/scenarios/supported/manifest.yaml",
+    ]);
+    assert_eq!(bad.status.code(), Some(2));
+    assert!(stderr(&bad).contains("vetscore-reviewed-policies.txt:1: expected a SHA-256 digest"));
+}
+
+/// Every line of the README's merge-request excerpt is a line of the real comment, in order.
+fn readme_excerpt_is_in(markdown: &str) {
+    let readme = std::fs::read_to_string(common::root().join("README.md")).unwrap();
+    let section = &readme[readme.find("## A merge request, end to end").unwrap()..];
+    let start = section.find("```markdown\n").unwrap() + "```markdown\n".len();
+    let excerpt = &section[start..start + section[start..].find("```\n").unwrap()];
+    let mut lines = markdown.lines();
+    for wanted in excerpt.lines().filter(|l| !l.is_empty()) {
+        assert!(
+            lines.any(|l| l == wanted),
+            "README excerpt line not in the real output (or out of order): {wanted}"
+        );
+    }
+}
+
+#[test]
+fn the_adopting_change_has_no_policy_change_to_review() {
+    let dir = tempfile::tempdir().unwrap();
+    let json = dir.path().join("report.json");
+    let md = dir.path().join("report.md");
+    let out = vetscore(&[
+        "check",
+        "--no-base-policy",
+        "--policy",
+        DEMO_POLICY,
+        "--json",
+        json.to_str().unwrap(),
+        "--markdown",
+        md.to_str().unwrap(),
+        "fixtures/scenarios/supported/manifest.yaml",
+    ]);
+    assert_eq!(out.status.code(), Some(0), "{}", stderr(&out));
+    let report: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&json).unwrap()).unwrap();
+    let change = report["models"][0]["findings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|f| f["rule"] == "policy_change")
+        .unwrap()
+        .clone();
+    assert_eq!(change["status"], "pass");
+    assert!(
+        std::fs::read_to_string(&md)
+            .unwrap()
+            .contains("no policy change to review")
+    );
+    // Stating both is a usage error.
+    let both = vetscore(&[
+        "check",
+        "--no-base-policy",
+        "--base-policy",
+        DEMO_POLICY,
+        "fixtures/scenarios/supported/manifest.yaml",
+    ]);
+    assert_eq!(both.status.code(), Some(2));
 }
 
 /// Issue 9, item 11: each finding names the line of its own rule's block, in a block-style YAML

@@ -229,7 +229,17 @@ fn a_base_report_cannot_inject_markup_into_the_comment() {
         });
         assert_eq!(code, Some(2), "{field}: {err}");
         assert!(err.contains("not a vetscore JSON report"), "{field}: {err}");
-        assert!(markdown.is_empty());
+        // Invalid inputs still write the "could not check" report; what it quotes is inert.
+        assert!(
+            markdown.starts_with("<!-- vetscore:report -->\n## vetscore: could not check\n"),
+            "{markdown}"
+        );
+        for raw in ["<img", "](", "@reviewers", "<!-- vetscore:report --> !["] {
+            assert!(
+                !markdown.contains(raw),
+                "{field}: {raw} survived:\n{markdown}"
+            );
+        }
     }
     // A finding's rule must be a rule id.
     let (code, err, _) = against_base(|b| b["models"][0]["findings"][0]["rule"] = HOSTILE.into());

@@ -31,6 +31,17 @@ impl BaseReport {
     /// structure `vetscore schema report` publishes (it is the base branch's artifact, but still
     /// a file): verdicts and statuses are then the report's own words, never free text.
     pub fn parse(text: &str) -> Result<BaseReport, String> {
+        // A report whose inputs were invalid has no models to compare with: say so plainly.
+        if let Ok(probe) = serde_json::from_str::<VerdictOnly>(text)
+            && probe.verdict == "could_not_check"
+        {
+            return Err(
+                "the base branch's report says it could not check its inputs (verdict \
+                        \"could not check\"), so there is nothing to compare with; fix the base \
+                        branch first"
+                    .to_owned(),
+            );
+        }
         let value: serde_json::Value =
             serde_json::from_str(text).map_err(|e| format!("not a vetscore JSON report: {e}"))?;
         if let Some(version) = value
@@ -43,7 +54,7 @@ impl BaseReport {
                  branch's report with this version of vetscore"
             ));
         }
-        let schema = serde_json::to_value(super::schema()).map_err(|e| e.to_string())?;
+        let schema = serde_json::to_value(super::checked_schema()).map_err(|e| e.to_string())?;
         let problems = super::schema_check::check(&schema, &value);
         if !problems.is_empty() {
             return Err(format!(
@@ -93,6 +104,11 @@ impl BaseReport {
             .map(|m| (m.name.clone(), m.test_fingerprint.clone()))
             .collect()
     }
+}
+
+#[derive(Debug, Deserialize)]
+struct VerdictOnly {
+    verdict: String,
 }
 
 #[derive(Debug, Deserialize)]

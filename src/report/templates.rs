@@ -15,11 +15,14 @@ use minijinja::syntax::SyntaxConfig;
 use minijinja::value::Serde;
 use minijinja::{Environment, UndefinedBehavior, Value};
 
+use super::budget::Layout;
 use super::view::View;
 use super::{escape, format};
 
 /// The Markdown report's template.
 pub const MARKDOWN: &str = "report.md.j2";
+/// The Markdown report of a run whose inputs were invalid.
+pub const PROBLEMS: &str = "could-not-check.md.j2";
 /// The JUnit XML template.
 pub const JUNIT: &str = "junit.xml.j2";
 
@@ -29,6 +32,10 @@ pub const MARKER: &str = "<!-- vetscore:report -->";
 const BUILT_IN: &[(&str, &str)] = &[
     (MARKDOWN, include_str!("../../templates/report.md.j2")),
     (JUNIT, include_str!("../../templates/junit.xml.j2")),
+    (
+        PROBLEMS,
+        include_str!("../../templates/could-not-check.md.j2"),
+    ),
 ];
 
 /// A set of template sources by file name.
@@ -64,8 +71,18 @@ impl Templates {
         Ok(templates)
     }
 
-    /// Renders template `name` with the view.
+    /// Renders template `name` with the view, everything shown.
     pub fn render(&self, name: &'static str, view: &View) -> Result<String> {
+        self.prepare(name, view)?
+            .render(&Layout::full(view.models.len()))
+    }
+
+    /// Parses template `name` and converts the view once, for rendering several layouts.
+    pub fn prepare<'s>(
+        &'s self,
+        name: &'static str,
+        view: &impl serde::Serialize,
+    ) -> Result<Prepared<'s>> {
         let mut env = environment()?;
         let source = self
             .sources
@@ -73,13 +90,41 @@ impl Templates {
             .with_context(|| format!("no template named {name}"))?;
         env.add_template(name, source)
             .with_context(|| format!("template {name} does not parse"))?;
-        env.get_template(name)?
-            .render(minijinja::context! { report => Value::from(Serde(view)), marker => MARKER })
-            .with_context(|| format!("rendering {name}"))
+        Ok(Prepared {
+            env,
+            name,
+            report: Value::from(Serde(view)),
+        })
     }
 }
 
-fn environment() -> Result<Environment<'static>> {
+/// A parsed template and its view, ready to render in any [`Layout`].
+pub struct Prepared<'s> {
+    env: Environment<'s>,
+    name: &'static str,
+    report: Value,
+}
+
+impl Prepared<'_> {
+    /// Renders with `layout`; the text always ends with a line break.
+    pub fn render(&self, layout: &Layout) -> Result<String> {
+        let mut text = self
+            .env
+            .get_template(self.name)?
+            .render(minijinja::context! {
+                report => self.report.clone(),
+                marker => MARKER,
+                layout => Value::from(Serde(layout)),
+            })
+            .with_context(|| format!("rendering {}", self.name))?;
+        if !text.ends_with('\n') {
+            text.push('\n');
+        }
+        Ok(text)
+    }
+}
+
+fn environment<'s>() -> Result<Environment<'s>> {
     let mut env = Environment::new();
     env.set_undefined_behavior(UndefinedBehavior::Strict);
     env.set_syntax(

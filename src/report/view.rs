@@ -13,7 +13,9 @@ use crate::manifest::{Basis, Metric};
 use crate::policy::Policy;
 use crate::rules;
 
-/// Version of the JSON report format; bumped on any incompatible change.
+/// Version of the JSON report format; bumped on any incompatible change. Version 2 added the
+/// report of a run that could not check (`verdict: "could_not_check"`, see `problems.rs`) and the
+/// ledger head (`ledger_head`).
 pub const REPORT_VERSION: u32 = 2;
 
 #[derive(Debug, Clone, Serialize, JsonSchema)]
@@ -28,6 +30,9 @@ pub struct View {
     pub notes: Vec<String>,
     /// The unified diff from the base branch's policy, when it differs.
     pub policy_diff: Option<PolicyDiff>,
+    /// When this change loosens the policy it is judged by: one headline for the whole report,
+    /// not one finding per model.
+    pub policy_review: Option<PolicyReviewView>,
     /// What changed since the base branch's report, when one was given.
     pub since_base: Option<super::since::SinceBase>,
     /// The holdout ledger the check read (`--ledger`), where it ends: a later check on a merge
@@ -57,6 +62,17 @@ pub struct LedgerAnchor {
     pub last_hash: String,
 }
 
+/// A loosened policy that blocks the merge request until a reviewer accepts it.
+#[derive(Debug, Clone, Serialize, JsonSchema)]
+pub struct PolicyReviewView {
+    /// Each distinct list of loosening changes, as the policy-change findings state them.
+    pub loosened: Vec<String>,
+    /// Models the change blocks.
+    pub models: usize,
+    /// The digest a reviewer records on the base branch to accept this policy.
+    pub digest: String,
+}
+
 #[derive(Debug, Clone, Serialize, JsonSchema)]
 pub struct PolicyDiff {
     pub base_file: Option<String>,
@@ -78,6 +94,9 @@ pub struct Counts {
     pub supported: usize,
     pub with_warnings: usize,
     pub not_supported: usize,
+    /// Models not supported for a reason other than a policy change under review: the claims
+    /// their own evidence does not support.
+    pub claims_not_supported: usize,
 }
 
 #[derive(Debug, Clone, Serialize, JsonSchema)]
@@ -171,7 +190,11 @@ pub struct EvidenceView {
 
 /// Builds the view of an assessment; `base_policy` is the base branch's policy, when given.
 pub fn build(assessment: &Assessment, policy: &Policy, base_policy: Option<&Policy>) -> View {
-    let models: Vec<ModelView> = assessment.models.iter().map(model_view).collect();
+    let mut models: Vec<ModelView> = assessment.models.iter().map(model_view).collect();
+    // Failing models first, then those with warnings: every output lists what needs attention
+    // first, and the comment budget (budget.rs) cuts from the end. The sort is stable, so models
+    // keep the manifests' order within a verdict.
+    models.sort_by_key(|m| m.verdict);
     let count = |v: Verdict| models.iter().filter(|m| m.verdict == v).count();
     View {
         report_version: REPORT_VERSION,
@@ -186,6 +209,14 @@ pub fn build(assessment: &Assessment, policy: &Policy, base_policy: Option<&Poli
             supported: count(Verdict::Supported),
             with_warnings: count(Verdict::SupportedWithWarnings),
             not_supported: count(Verdict::NotSupported),
+            claims_not_supported: models
+                .iter()
+                .filter(|m| {
+                    m.findings
+                        .iter()
+                        .any(|f| f.effect == Effect::Blocks && f.rule != POLICY_CHANGE)
+                })
+                .count(),
         },
         policy: PolicyView {
             file: policy.file.clone(),
@@ -197,10 +228,42 @@ pub fn build(assessment: &Assessment, policy: &Policy, base_policy: Option<&Poli
         },
         notes: assessment.notes.clone(),
         policy_diff: base_policy.and_then(|base| policy_diff(base, policy)),
+        policy_review: policy_review(&models, &policy.digest),
         since_base: None,
         ledger_head: None,
         models,
     }
+}
+
+const POLICY_CHANGE: &str = "policy_change";
+
+fn policy_review(models: &[ModelView], digest: &str) -> Option<PolicyReviewView> {
+    let mut loosened: Vec<String> = Vec::new();
+    let mut blocked = 0;
+    for m in models {
+        let Some(f) = m
+            .findings
+            .iter()
+            .find(|f| f.rule == POLICY_CHANGE && f.effect == Effect::Blocks)
+        else {
+            continue;
+        };
+        blocked += 1;
+        if let Some(EvidenceValue::Text { value }) = f
+            .evidence
+            .iter()
+            .find(|e| e.key == "loosened_list")
+            .map(|e| &e.value)
+            && !loosened.contains(value)
+        {
+            loosened.push(value.clone());
+        }
+    }
+    (blocked > 0).then(|| PolicyReviewView {
+        loosened,
+        models: blocked,
+        digest: digest.to_owned(),
+    })
 }
 
 fn policy_diff(base: &Policy, policy: &Policy) -> Option<PolicyDiff> {

@@ -385,6 +385,18 @@ pub struct Context {
     /// With a base report: the model's test fingerprint there (`None` inside when the model is
     /// new since the base branch).
     pub base_split: Option<Option<String>>,
+    /// What the base branch says about reviewing this change's policy.
+    pub review: PolicyReview,
+}
+
+/// What the base branch says about the policy under review, besides its own policy.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct PolicyReview {
+    /// The base branch has no policy yet (`--no-base-policy`): this change adopts vetscore.
+    pub adopting: bool,
+    /// This change's policy digest is listed as reviewed on the base branch
+    /// (`--reviewed-policies`).
+    pub accepted: bool,
 }
 
 /// The base branch's policy for one model, for the policy-change review.

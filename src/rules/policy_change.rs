@@ -20,7 +20,11 @@ or expires later. Changes whose direction is not known (the interval method, the
 gate, the reported margin) count as loosening until a reviewer accepts them, since they can make \
 a claim pass. Tightening is reported but passes. The severity of this rule comes from the base \
 branch's policy, not from the policy under review, so a merge request cannot weaken it in the \
-same change. The report shows the unified diff of the two policy files. This is common practice \
+same change. A reviewer accepts a loosened policy by recording its SHA-256 digest (shown in the \
+report) in the base branch's list of reviewed policies (`--reviewed-policies`); the base branch \
+is trusted, the change is not. When the base branch has no policy yet (`--no-base-policy`), the \
+change adopts vetscore and there is nothing to review. The report shows the unified diff of the \
+two policy files. This is common practice \
 for change control of quality gates (no single source).",
     check,
     severity_from_base: true,
@@ -31,6 +35,13 @@ pub fn problems(_raw: &RawSettings) -> Vec<(String, String)> {
 }
 
 fn check(_subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
+    if ctx.review.adopting {
+        return Outcome::pass(
+            "The base branch has no policy yet: this change adopts vetscore, so there is no \
+             policy change to review.",
+            Vec::new(),
+        );
+    }
     let Some(base) = &ctx.base else {
         return Outcome::new(
             Status::Skipped,
@@ -98,11 +109,23 @@ fn check(_subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome 
             .join("; ")
     };
     let loosened = changes.iter().filter(|c| c.looser).count() as u64;
-    let evidence = vec![
-        Evidence::count("loosened", "Loosening changes", loosened),
-        Evidence::text("loosened_list", "Loosened", describe(true)),
-        Evidence::text("tightened_list", "Tightened", describe(false)),
-    ];
+    let mut evidence = vec![Evidence::count("loosened", "Loosening changes", loosened)];
+    // An empty list says nothing; only the lists with entries are evidence.
+    for (key, label, looser) in [
+        ("loosened_list", "Loosened", true),
+        ("tightened_list", "Tightened", false),
+    ] {
+        if changes.iter().any(|c| c.looser == looser) {
+            evidence.push(Evidence::text(key, label, describe(looser)));
+        }
+    }
+    if loosened > 0 && ctx.review.accepted {
+        return Outcome::pass(
+            "The policy was loosened for this model in this change ({loosened_list}), and a \
+             reviewer accepted it: its digest is listed as reviewed on the base branch.",
+            evidence,
+        );
+    }
     if changes.is_empty() {
         return Outcome::pass(
             "The policy applies to this model as on the base branch.",

@@ -138,6 +138,7 @@ pub struct Report {
     pub policy: PolicyInfo,
     pub notes: Vec<String>,
     pub policy_diff: Option<serde_json::Value>,
+    pub policy_review: Option<serde_json::Value>,
     pub since_base: Option<serde_json::Value>,
     pub ledger_head: Option<LedgerHead>,
     pub models: Vec<ModelReport>,
@@ -167,6 +168,7 @@ pub struct Counts {
     pub supported: usize,
     pub with_warnings: usize,
     pub not_supported: usize,
+    pub claims_not_supported: usize,
 }
 
 #[derive(Debug, Deserialize)]
