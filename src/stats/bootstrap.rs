@@ -9,8 +9,9 @@
 //! caller's `seed` (see `rng`); resamples run in order on one thread and the percentile is taken
 //! after a sort under a total order, so one seed gives one interval on every platform.
 //!
-//! Must not: read the clock or OS entropy, spawn threads, or keep more than one value per resample
-//! (memory: `resamples` f64s plus one resampled matrix, or the caller's rows).
+//! Must not: read the clock or OS entropy, spawn threads (only `bbc` does, deterministically), or
+//! keep more than one value per resample (memory: `resamples` f64s plus one resampled matrix, or
+//! the caller's rows).
 
 use super::error::{Result, StatsError, check_unit_open};
 use super::metrics::{ConfusionMatrix, RegressionErrors};

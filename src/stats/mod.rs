@@ -11,7 +11,10 @@
 //! (`delong`), paired tests — McNemar, paired accuracy difference, paired and corrected resampled
 //! t (`paired`), the exact sign-flip test and the floor it puts under any paired p-value
 //! (`sign_flip`), RMSE and R² differences in their own units (`loss_difference`) — and seeded
-//! bootstraps (`bootstrap`, on the portable generator in `rng`).
+//! bootstraps (`bootstrap`, on the portable generator in `rng`). Selection on out-of-fold
+//! results: bootstrap bias-corrected CV (`bbc`, the one place here that uses both cores, with
+//! results identical for any thread count) and the effective number of configurations
+//! (`effective_configurations`).
 //!
 //! Every public function validates its arguments and returns [`Result`]; the `statrs` calls that
 //! panic on NaN or loop forever on huge shapes are only reached with checked arguments, and the
