@@ -57,3 +57,40 @@ fn auc_score_interval_matches_a_root_finder() {
     assert!(stats::auc_score_interval(0.5, 0, 3, 0.95).is_err());
     assert!(stats::auc_score_interval(1.5, 3, 3, 0.95).is_err());
 }
+
+#[test]
+fn balanced_accuracy_on_one_row_needs_no_positive_class() {
+    // Issue 9 item 12: balanced accuracy on a single row said "binary F1 needs positive_class".
+    // Reference: scikit-learn 1.9.1 balanced_accuracy_score(["a"], ["a"]) = 1.0 (the mean recall
+    // over the classes present in y_true). With one row the claim still fails claim_support's
+    // minimum rows, never through a message about F1.
+    let dir = tempfile::tempdir().unwrap();
+    // sha256("r1") by coreutils sha256sum: the fingerprint of a split holding the one id r1.
+    let fingerprint = "sha256:82f3e9c695dc6b8d1b11818d5701919e286de8d47f7c3eb3100c485f79e57828";
+    let manifest = format!(
+        "format_version: 1\nmodels:\n  - name: one-row\n    task: binary\n    metric: \
+         balanced_accuracy\n    data: {{train_rows: 10, test_rows: 1, test_fingerprint: \
+         \"{fingerprint}\"}}\n    holdout:\n      - {{time: 2026-11-20T10:00:00Z, score: 1.0}}\n    \
+         predictions:\n      file: predictions.csv\n      classes: [a, b]\n    claim: {{value: \
+         1.0, basis: test}}\n"
+    );
+    std::fs::write(dir.path().join("manifest.yaml"), manifest).unwrap();
+    std::fs::write(
+        dir.path().join("predictions.csv"),
+        "id,label,prediction\nr1,a,a\n",
+    )
+    .unwrap();
+    let report = dir.path().join("report.json");
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_vetscore"))
+        .current_dir(dir.path())
+        .args(["check", "--json", report.to_str().unwrap(), "manifest.yaml"])
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(1), "{}", common::stderr(&out));
+    let report: Value = serde_json::from_str(&std::fs::read_to_string(&report).unwrap()).unwrap();
+    let findings = report["models"][0]["findings"].as_array().unwrap();
+    let rule = |id: &str| findings.iter().find(|f| f["rule"] == id).unwrap();
+    assert_eq!(rule("recompute")["status"], "pass");
+    assert_eq!(rule("claim_support")["status"], "fail");
+    assert!(!report.to_string().contains("positive_class"));
+}

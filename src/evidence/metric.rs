@@ -175,19 +175,20 @@ fn recompute_unclipped(
         }
         Metric::BalancedAccuracy | Metric::F1 => {
             let m = confusion(set)?;
-            let average = f1_average(f1, set.positive)?;
+            // Only F1 has an averaging mode; balanced accuracy never needs `positive_class`.
+            let average = match metric {
+                Metric::F1 => Some(f1_average(f1, set.positive)?),
+                _ => None,
+            };
             let k = m.classes() as u64;
             let resamples = affordable_resamples(
                 s.resamples,
                 k * k,
                 &format!("the bootstrap of a {k}-class confusion matrix"),
             )?;
-            let statistic = |c: &ConfusionMatrix| {
-                if metric == Metric::F1 {
-                    c.f1(average)
-                } else {
-                    c.balanced_accuracy()
-                }
+            let statistic = |c: &ConfusionMatrix| match average {
+                Some(average) => c.f1(average),
+                None => c.balanced_accuracy(),
             };
             Ok(Recomputed {
                 value: statistic(&m).map_err(err)?,
@@ -492,13 +493,14 @@ pub fn compare(
                             + b_pred as usize;
                         joint[cell] += 1;
                     }
-                    let average = f1_average(f1, model.positive)?;
-                    let statistic = |c: &ConfusionMatrix| {
-                        if metric == Metric::F1 {
-                            c.f1(average)
-                        } else {
-                            c.balanced_accuracy()
-                        }
+                    // Only F1 has an averaging mode; balanced accuracy never needs `positive_class`.
+                    let average = match metric {
+                        Metric::F1 => Some(f1_average(f1, model.positive)?),
+                        _ => None,
+                    };
+                    let statistic = |c: &ConfusionMatrix| match average {
+                        Some(average) => c.f1(average),
+                        None => c.balanced_accuracy(),
                     };
                     let resamples = affordable_resamples(
                         settings.resamples,

@@ -128,7 +128,7 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
     if estimate.rows < settings.min_rows {
         return Outcome::fail(
             "The claimed {claim} rests on only {rows} rows, fewer than the {min_rows} the policy \
-             accepts: their interval {interval} is too wide to support a claim.",
+             accepts: so few rows cannot support a claim, whatever their interval {interval} says.",
             evidence,
         );
     }
