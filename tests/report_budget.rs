@@ -14,31 +14,14 @@ use common::{root, stderr};
 /// Manifests per file: well under the manifest's node limit.
 const PER_FILE: usize = 500;
 
-/// One model in the shape of the `supported` scenario (81 of 263 correct, Newcombe 1998a), with
-/// its own test split. Odd models claim 0.40, far above the Wilson interval of 81/263
-/// ([0.2553, 0.3662], Newcombe 1998a), so their claim is not supported; even ones claim 0.31.
+/// Odd models claim 0.40 (not supported), even ones 0.31 (supported): see
+/// [`common::quince_model`].
 fn model(i: usize) -> String {
     let claim = if i % 2 == 1 { "0.40" } else { "0.31" };
-    format!(
-        r#"  - name: quince-sorter-{i:05}
-    task: binary
-    metric: accuracy
-    seed: 3
-    data: {{train_rows: 1052, test_rows: 263, test_fingerprint: "fp-quince-{i}"}}
-    search:
-      method: grid
-      configurations: 12
-      cv:
-        scheme: k_fold
-        folds:
-          - {{rows: 263, score: 0.3080, correct: 81}}
-          - {{rows: 263, score: 0.3080}}
-          - {{rows: 263, score: 0.3080}}
-          - {{rows: 263, score: 0.3080}}
-    holdout:
-      - {{time: 2026-11-01T10:00:00Z, score: 0.3080, correct: 81}}
-    claim: {{value: {claim}, basis: test}}
-"#
+    common::quince_model(
+        &format!("quince-sorter-{i:05}"),
+        &format!("quince-{i}"),
+        claim,
     )
 }
 

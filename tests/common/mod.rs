@@ -289,3 +289,31 @@ pub fn assert_close(what: &str, actual: f64, expected: f64, tolerance: f64) {
         "{what}: expected {expected} ± {tolerance}, got {actual}"
     );
 }
+
+/// One model of a manifest's `models:` list in the shape of the `supported` scenario: 1,052
+/// training rows in four folds of 263 at 81 correct, and one test look at 81 of 263 (Newcombe
+/// 1998a's example, Wilson interval [0.2553, 0.3662]), on its own test split `fp-{split}`. A claim
+/// of 0.31 lies inside that interval and is supported; 0.40 lies far above it and is not.
+pub fn quince_model(name: &str, split: &str, claim: &str) -> String {
+    format!(
+        r#"  - name: {name}
+    task: binary
+    metric: accuracy
+    seed: 3
+    data: {{train_rows: 1052, test_rows: 263, test_fingerprint: "fp-{split}"}}
+    search:
+      method: grid
+      configurations: 12
+      cv:
+        scheme: k_fold
+        folds:
+          - {{rows: 263, score: 0.3080, correct: 81}}
+          - {{rows: 263, score: 0.3080}}
+          - {{rows: 263, score: 0.3080}}
+          - {{rows: 263, score: 0.3080}}
+    holdout:
+      - {{time: 2026-11-01T10:00:00Z, score: 0.3080, correct: 81}}
+    claim: {{value: {claim}, basis: test}}
+"#
+    )
+}
