@@ -10,7 +10,6 @@ run it; it ships its output.
     /tmp/vs-venv/bin/python tests/reference/edge_scenarios.py
 """
 
-import hashlib
 import json
 import math
 from pathlib import Path
@@ -22,28 +21,13 @@ from scipy import stats
 from sklearn.metrics import mean_absolute_error, mean_squared_error, r2_score, roc_auc_score
 
 from auc_score import score_auc_interval
+from scenario_files import NO_CV, fingerprint, write_csv
 
 VERSIONS = f"scikit-learn {sklearn.__version__}, scipy {scipy.__version__}, numpy {np.__version__}"
 HERE = Path(__file__).resolve().parent
 ROOT = HERE.parents[1] / "fixtures" / "scenarios"
 rng = np.random.default_rng(20261202)
-NO_CV = """  cv_test_gap: {severity: "off"}
-  interval_overlap: {severity: "off"}
-  selection_optimism: {severity: "off"}
-  fold_size: {severity: "off"}
-"""
 Z = stats.norm.isf(0.025)
-
-
-def fingerprint(ids):
-    return "sha256:" + hashlib.sha256("\n".join(sorted(ids)).encode()).hexdigest()
-
-
-def write_csv(path, header, rows):
-    with open(path, "w") as f:
-        f.write(",".join(header) + "\n")
-        for r in rows:
-            f.write(",".join(str(x) for x in r) + "\n")
 
 
 def source(call):

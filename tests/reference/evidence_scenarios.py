@@ -7,7 +7,6 @@ rerun writes the same files. CI does not run it; it ships its output.
     /tmp/vs-venv/bin/python tests/reference/evidence_scenarios.py
 """
 
-import hashlib
 import math
 from pathlib import Path
 
@@ -20,27 +19,11 @@ from sklearn.metrics import accuracy_score, f1_score, mean_squared_error, roc_au
 from statsmodels.stats.contingency_tables import mcnemar
 
 from auc_score import score_auc_interval
+from scenario_files import NO_CV, fingerprint, write_csv
 
 VERSIONS = f"scikit-learn {sklearn.__version__}, statsmodels {statsmodels.__version__}, scipy {scipy.__version__}, numpy {np.__version__}"
 ROOT = Path(__file__).resolve().parents[2] / "fixtures" / "scenarios"
 rng = np.random.default_rng(20261201)
-# These scenarios carry no cross-validation, so the rules that judge it are switched off.
-NO_CV = """  cv_test_gap: {severity: "off"}
-  interval_overlap: {severity: "off"}
-  selection_optimism: {severity: "off"}
-  fold_size: {severity: "off"}
-"""
-
-
-def fingerprint(ids):
-    return "sha256:" + hashlib.sha256("\n".join(sorted(ids)).encode()).hexdigest()
-
-
-def write_csv(path, header, rows):
-    with open(path, "w") as f:
-        f.write(",".join(header) + "\n")
-        for r in rows:
-            f.write(",".join(str(x) for x in r) + "\n")
 
 
 def delong_auc_variance(scores, labels):
