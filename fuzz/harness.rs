@@ -349,6 +349,7 @@ pub fn model(name: &str, claim_text: Option<String>) -> Model {
                 folds: vec![fold(81), fold(83)],
             },
             trials: None,
+            out_of_fold: None,
         }),
         holdout: vec![Evaluation {
             time: None,

@@ -185,6 +185,19 @@ pub struct Search {
     pub cv: CrossValidation,
     /// What every trial's fold scores show, when they are given.
     pub trials: Option<trials::TrialSummary>,
+    /// Every configuration's out-of-fold results, when the manifest names a file of them.
+    pub out_of_fold: Option<OutOfFold>,
+}
+
+/// The out-of-fold file a search names, read and checked.
+#[derive(Debug, Clone, PartialEq)]
+pub struct OutOfFold {
+    /// The file as the manifest names it (for messages and the report).
+    pub file: String,
+    pub table: crate::stats::OofTable,
+    /// The selected configuration's index in the table: the one `search.selected_trial` names,
+    /// else the one whose out-of-fold score matches the selected folds.
+    pub selected: Option<usize>,
 }
 
 impl Search {

@@ -601,6 +601,7 @@ impl Validator<'_> {
             method: raw.method,
             configurations,
             effective_configurations: raw.effective_configurations,
+            out_of_fold: None,
             cv,
             trials,
         })

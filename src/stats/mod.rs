@@ -14,7 +14,7 @@
 //! bootstraps (`bootstrap`, on the portable generator in `rng`). Selection on out-of-fold
 //! results: bootstrap bias-corrected CV (`bbc`, the one place here that uses both cores, with
 //! results identical for any thread count) and the effective number of configurations
-//! (`effective_configurations`).
+//! (`effective_configurations`), both reading every configuration's out-of-fold table (`oof`).
 //!
 //! Every public function validates its arguments and returns [`Result`]; the `statrs` calls that
 //! panic on NaN or loop forever on huge shapes are only reached with checked arguments, and the
@@ -36,6 +36,7 @@ mod mean;
 mod metrics;
 mod moments;
 mod normal_t;
+mod oof;
 mod paired;
 mod proportion;
 mod rng;
@@ -67,6 +68,7 @@ pub use loss_difference::{DifferenceEstimate, RegressionDifference};
 pub use mean::{MeanEstimate, mean_t_interval};
 pub use metrics::{ConfusionMatrix, F1Average, LogLoss, MAX_CLASSES, RegressionErrors};
 pub use normal_t::{normal_sf, t_quantile, t_sf, z_two_sided, z_two_sided_alpha};
+pub use oof::{OofTable, OofTruth};
 pub use paired::{
     MCNEMAR_EXACT_BELOW, McNemar, PairedT, PairedTResult, corrected_resampled_t, mcnemar_auto,
     mcnemar_chi2, mcnemar_exact, paired_accuracy_difference,
