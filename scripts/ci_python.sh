@@ -33,7 +33,7 @@ binary="$(pwd)/target/debug/vetscore"
 
 # pytest exits 5 when it collects no test; say so loudly instead of failing the whole CI run.
 status=0
-(cd python && "$venv/bin/python" -m pytest -q -p no:cacheprovider tests) || status=$?
+(cd python && VETSCORE="$binary" "$venv/bin/python" -m pytest -q -p no:cacheprovider tests) || status=$?
 if [ "$status" -eq 5 ]; then
   echo "WARNING: pytest collected no tests in python/tests" >&2
 elif [ "$status" -ne 0 ]; then

@@ -55,6 +55,8 @@ pub enum Kind {
     TrialsResultsJson,
     /// A predictions file (CSV).
     Predictions,
+    /// A search's out-of-fold predictions: every configuration on every training row (CSV).
+    OutOfFold,
     /// A train or test id list (one id per line).
     Ids,
     /// The holdout ledger (JSON Lines).
@@ -94,7 +96,7 @@ impl Kind {
             Kind::TrialsCsv | Kind::TrialsJsonl => 1024 * MIB,
             // Parsed whole, so it bounds memory (several times its size as parsed values).
             Kind::TrialsResultsJson => 256 * MIB,
-            Kind::Predictions | Kind::Ids => 4096 * MIB,
+            Kind::Predictions | Kind::OutOfFold | Kind::Ids => 4096 * MIB,
             Kind::Ledger => 256 * MIB,
             Kind::Template | Kind::ReviewedPolicies => MIB,
         }
@@ -107,6 +109,7 @@ impl Kind {
             Kind::Policy => "policy",
             Kind::TrialsCsv | Kind::TrialsJsonl | Kind::TrialsResultsJson => "trials file",
             Kind::Predictions => "predictions file",
+            Kind::OutOfFold => "out-of-fold file",
             Kind::Ids => "id list",
             Kind::Ledger => "ledger",
             Kind::BaseReport => "base report",
@@ -117,7 +120,7 @@ impl Kind {
 
     const fn framing(self) -> Framing {
         match self {
-            Kind::TrialsCsv | Kind::Predictions => Framing::Csv,
+            Kind::TrialsCsv | Kind::Predictions | Kind::OutOfFold => Framing::Csv,
             Kind::TrialsJsonl | Kind::Ids | Kind::Ledger | Kind::ReviewedPolicies => Framing::Lines,
             Kind::Manifest
             | Kind::StdinManifest

@@ -123,3 +123,50 @@ def test_unmappable_scorers_and_unrepeatable_splits_are_refused():
     search, X, y = _search(None, shuffle_seed=None)
     with pytest.raises(vr.ManifestError, match="splits differently"):
         vr.Run("i", task="multiclass", metric="accuracy").search_sklearn(search, X, y)
+
+
+def test_out_of_fold_predictions_of_a_search_pass_the_check(tmp_path):
+    """The out-of-fold file of the top configurations: each one's accuracy equals
+    sklearn.metrics.accuracy_score on cross_val_predict with the search's folds (scikit-learn
+    1.9.1), its per-fold accuracy equals cv_results_, and `vetscore check` reads it."""
+    import csv
+    import os
+    import pathlib
+    import subprocess
+
+    pytest.importorskip("sklearn")
+    from sklearn.base import clone
+    from sklearn.datasets import load_breast_cancer
+    from sklearn.metrics import accuracy_score
+    from sklearn.model_selection import GridSearchCV, StratifiedKFold, cross_val_predict
+    from sklearn.neighbors import KNeighborsClassifier
+
+    X, y = load_breast_cancer(return_X_y=True)
+    X, y = X[:150], y[:150]
+    cv = StratifiedKFold(3, shuffle=True, random_state=0)
+    search = GridSearchCV(KNeighborsClassifier(), {"n_neighbors": [1, 3, 5, 7, 9]}, cv=cv).fit(X, y)
+    run = vr.Run("leaf", task="binary", metric="accuracy")
+    ids = [f"r{i}" for i in range(len(y))]
+    run.split(ids, ["t0", "t1"], train_labels=y, test_labels=[0, 1])
+    run.search_sklearn(search, X, y)
+    run.out_of_fold_sklearn(search, X, y, top=3)
+    run.claim(float(search.best_score_), basis="cv")
+    path = run.write(tmp_path)
+    rows = list(csv.DictReader(open(tmp_path / "out_of_fold.csv", encoding="utf-8")))
+    configs = sorted({r["configuration"] for r in rows}, key=int)
+    assert str(search.best_index_) in configs and len(configs) == 3
+    for c in configs:
+        mine = [r for r in rows if r["configuration"] == c]
+        params = search.cv_results_["params"][int(c)]
+        want = accuracy_score(y, cross_val_predict(clone(search.estimator).set_params(**params), X, y, cv=cv))
+        assert sum(r["label"] == r["prediction"] for r in mine) / len(y) == want
+        for k in range(3):
+            fold = [r for r in mine if r["fold"] == str(k)]
+            got = sum(r["label"] == r["prediction"] for r in fold) / len(fold)
+            assert got == pytest.approx(search.cv_results_[f"split{k}_test_score"][int(c)], abs=1e-12)
+    binary = os.environ.get("VETSCORE") or str(pathlib.Path(__file__).resolve().parents[2] / "target/debug/vetscore")
+    if not os.path.exists(binary):
+        pytest.skip(f"no vetscore binary at {binary} (set VETSCORE)")
+    done = subprocess.run([binary, "check", "--root", str(tmp_path), str(path)], capture_output=True, text=True)
+    # A CV claim with no test scoring is not supported (exit 1); an unreadable file would be 2.
+    assert done.returncode == 1, done.stderr

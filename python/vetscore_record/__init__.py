@@ -135,6 +135,7 @@ class Run:
         self._claim = None
         self._ids = None
         self._predictions = None
+        self._oof = []
 
     # -- data -------------------------------------------------------------------------------
 
@@ -242,6 +243,74 @@ class Run:
                     configurations=len(results["params"]))
         return self
 
+    def out_of_fold(self, configuration, ids, folds, y_true, y_pred=None, scores=None):
+        """Out-of-fold predictions of one configuration (all its rows, or one fold's): training
+        row ids, the fold each row was validated in, the true labels (values), and the predicted
+        classes (values) and/or, for a binary task, the positive class's scores."""
+        ids, folds, truth = _list(ids), _list(folds), _list(y_true)
+        pred = _list(y_pred) if y_pred is not None else None
+        score = _list(scores) if scores is not None else None
+        lengths = {len(ids), len(folds), len(truth)} | {len(v) for v in (pred, score) if v is not None}
+        if len(lengths) != 1:
+            raise ManifestError([f"out_of_fold(): ids, folds, labels and predictions differ in length {sorted(lengths)}"])
+        if pred is None and score is None:
+            raise ManifestError(["out_of_fold(): give y_pred and/or scores"])
+        if self._oof and ((pred is None) != (self._oof[0][4] is None) or (score is None) != (self._oof[0][5] is None)):
+            raise ManifestError(["out_of_fold(): every call must give the same columns (y_pred, scores)"])
+        regression = self.model["task"] == "regression"
+        text = (lambda v: repr(float(v))) if regression else _label
+        for j in range(len(ids)):
+            self._oof.append((
+                _label(configuration), _label(ids[j]), int(folds[j]), text(truth[j]),
+                text(pred[j]) if pred is not None else None,
+                repr(float(score[j])) if score is not None else None,
+            ))
+        return self
+
+    def out_of_fold_sklearn(self, search, X, y, groups=None, *, top=50, ids=None, cv=None):
+        """Recomputes the out-of-fold predictions of a fitted scikit-learn search's best `top`
+        configurations (by rank_test_score, and always the selected one) on the search's own
+        splitter (or `cv`): for each, on each split, clone(estimator).set_params(**params) is
+        fitted on the training part and predicts the held-out part, as cross_val_predict does.
+        `ids` are the rows' ids (default: the training ids given to split(), else positions)."""
+        import numpy as np
+        from sklearn.base import clone, is_classifier
+        from sklearn.model_selection import check_cv
+
+        classify = is_classifier(search.estimator)
+        splitter = check_cv(cv if cv is not None else search.cv, y, classifier=classify)
+        if getattr(splitter, "n_repeats", 1) not in (None, 1):
+            raise ManifestError(["out-of-fold predictions of a repeated k-fold search cannot be recorded (one prediction per row)"])
+        splits = list(splitter.split(X, y, groups))
+        n = len(_list(y))
+        if ids is None:
+            ids = self._ids[0] if self._ids is not None and len(self._ids[0]) == n else list(range(n))
+        ids = _list(ids)
+        results = search.cv_results_
+        ranks = _list(results[f"rank_test_{_scorer_of(search, self.model['metric'])[0]}"])
+        order = sorted(range(len(ranks)), key=lambda i: (ranks[i], i))[:max(1, int(top))]
+        if search.best_index_ not in order:
+            order.append(int(search.best_index_))
+        X, y_arr = np.asarray(X), np.asarray(y)
+        binary = self.model["task"] == "binary"
+        folds = np.empty(n, dtype=int)
+        for k, (_, test) in enumerate(splits):
+            folds[test] = k
+        for i in order:
+            pred = np.empty(n, dtype=object) if classify else np.empty(n)
+            score = np.empty(n) if binary else None
+            for train, test in splits:
+                model = clone(search.estimator).set_params(**results["params"][i]).fit(X[train], y_arr[train])
+                pred[test] = model.predict(X[test])
+                if binary:
+                    if hasattr(model, "predict_proba"):
+                        # Column 1 is classes_[1], the positive class of a binary classifier.
+                        score[test] = model.predict_proba(X[test])[:, 1]
+                    else:
+                        score[test] = model.decision_function(X[test])
+            self.out_of_fold(i, ids, folds, y_arr, y_pred=list(pred), scores=score)
+        return self
+
     # -- test split -------------------------------------------------------------------------
 
     def test(self, y_true=None, y_pred=None, *, ids=None, score=None, positive_scores=None,
@@ -296,6 +365,8 @@ class Run:
             search = dict(self._search, cv=self._cv)
             if "trials" in files:
                 search["trials_file"] = files["trials"]
+            if "out_of_fold" in files:
+                search["out_of_fold"] = files["out_of_fold"]
             model["search"] = search
         if "train_ids" in files:
             model["data"] = dict(model["data"], train_ids_file=files["train_ids"],
@@ -318,8 +389,13 @@ class Run:
             files["train_ids"], files["test_ids"] = "train_ids.txt", "test_ids.txt"
         if self._predictions is not None:
             files["predictions"] = "predictions.csv"
+        if self._oof:
+            files["out_of_fold"] = "out_of_fold.csv"
         doc = self.manifest(files)
         problems = _schema.errors(doc)
+        selected = (self._search or {}).get("selected_trial")
+        if self._oof and selected is not None and selected not in {r[0] for r in self._oof}:
+            problems.append(f"the selected configuration {selected!r} has no out-of-fold predictions")
         if "data" not in self.model:
             problems.insert(0, "split() was not called: the manifest needs the data split")
         if self._claim is None:
@@ -336,9 +412,23 @@ class Run:
                 (folder / files[key]).write_text("".join(f"{i}\n" for i in ids), encoding="utf-8")
         if "predictions" in files:
             self._write_predictions(folder / files["predictions"])
+        if "out_of_fold" in files:
+            self._write_out_of_fold(folder / files["out_of_fold"])
         path = folder / "manifest.json"
         path.write_text(json.dumps(doc, indent=2, allow_nan=False) + "\n", encoding="utf-8")
         return path
+
+    def _write_out_of_fold(self, path):
+        import csv
+
+        first = self._oof[0]
+        keep = [k for k in range(6) if k < 4 or first[k] is not None]
+        names = ["configuration", "row", "fold", "label", "prediction", "score"]
+        with open(path, "w", encoding="utf-8", newline="") as out:
+            writer = csv.writer(out, lineterminator="\n")
+            writer.writerow([names[k] for k in keep])
+            for record in self._oof:
+                writer.writerow([record[k] for k in keep])
 
     def _write_predictions(self, path):
         import csv

@@ -11,6 +11,7 @@
 
 pub mod ids;
 pub mod metric;
+pub mod oof;
 pub mod read;
 
 pub use read::read_predictions;

@@ -50,14 +50,14 @@ impl Problems {
 }
 
 /// Class names mapped to indices, fixed by the manifest or discovered in the file.
-struct Classes {
-    names: Vec<String>,
+pub(super) struct Classes {
+    pub(super) names: Vec<String>,
     index: HashMap<Vec<u8>, u32>,
     fixed: bool,
 }
 
 impl Classes {
-    fn new(given: Option<&[String]>) -> Classes {
+    pub(super) fn new(given: Option<&[String]>) -> Classes {
         let names: Vec<String> = given.map(<[String]>::to_vec).unwrap_or_default();
         let index = names
             .iter()
@@ -71,7 +71,7 @@ impl Classes {
         }
     }
 
-    fn get(&mut self, label: &[u8]) -> Option<u32> {
+    pub(super) fn get(&mut self, label: &[u8]) -> Option<u32> {
         // A few classes are found faster by scanning than by hashing every cell.
         if self.names.len() <= 16 {
             if let Some(i) = self.names.iter().position(|n| n.as_bytes() == label) {
@@ -90,7 +90,7 @@ impl Classes {
     }
 }
 
-fn parse_f64(cell: &[u8]) -> Option<f64> {
+pub(super) fn parse_f64(cell: &[u8]) -> Option<f64> {
     std::str::from_utf8(cell)
         .ok()?
         .trim()

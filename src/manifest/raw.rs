@@ -178,6 +178,11 @@ pub struct RawSearch {
     /// A CSV or JSON Lines file of trials, relative to this manifest.
     #[serde(default)]
     pub trials_file: Option<String>,
+    /// A CSV file of every configuration's out-of-fold predictions on the training rows
+    /// (columns configuration, row, fold, label, prediction and/or score), relative to this
+    /// manifest.
+    #[serde(default)]
+    pub out_of_fold: Option<String>,
     /// The id of the trial that was chosen (its fold scores must equal `cv.folds`); the
     /// selection-optimism bias is computed for it. Unnamed, it is the trial whose fold scores
     /// equal `cv.folds` (or, in a scikit-learn results file, the first ranked 1).

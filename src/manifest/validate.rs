@@ -16,6 +16,8 @@ use super::{
 };
 use crate::diag::{Diagnostic, Diagnostics, Place};
 
+mod out_of_fold;
+
 /// A proportion score may be rounded by the writer; it is accepted as k/n when it lies within
 /// half a unit of the fourth decimal of k/n (scores are commonly printed with four decimals).
 const PROPORTION_ROUNDING: f64 = 5e-5;
@@ -142,9 +144,14 @@ impl Validator<'_> {
             (p.value.classes.clone(), p.value.positive_class.clone())
         });
         let predictions = self.predictions(path, raw.task, raw.predictions);
-        let search = raw
-            .search
-            .and_then(|s| self.search(&format!("{path}.search"), raw.metric, data.as_ref(), s));
+        let oof_classes = out_of_fold::classes(classes.as_deref(), data.as_ref());
+        let search = raw.search.and_then(|s| {
+            let oof = out_of_fold::Context {
+                task: raw.task,
+                classes: oof_classes.as_deref(),
+            };
+            self.search(&format!("{path}.search"), raw.metric, data.as_ref(), s, oof)
+        });
         let baseline = self.baseline(
             path,
             raw.task,
@@ -494,9 +501,15 @@ impl Validator<'_> {
         metric: Metric,
         data: Option<&Data>,
         spanned: Spanned<RawSearch>,
+        oof: out_of_fold::Context<'_>,
     ) -> Option<Search> {
         let place = Place::of(&spanned.referenced);
         let raw = spanned.value;
+        let oof_file = raw.out_of_fold.clone();
+        let named_trial = raw
+            .selected_trial
+            .as_ref()
+            .map(|s| (trials::id_text(&s.value), Place::of(&s.referenced)));
         if raw.configurations == Some(0) {
             self.problem(
                 place,
@@ -597,11 +610,23 @@ impl Validator<'_> {
                 );
             }
         }
+        let out_of_fold = match oof_file {
+            Some(name) => {
+                let named = out_of_fold::Named {
+                    place,
+                    path,
+                    name: &name,
+                    trial: named_trial.as_ref().map(|(id, p)| (id.as_str(), *p)),
+                };
+                Some(self.out_of_fold(named, metric, oof, &cv, trials.as_ref())?)
+            }
+            None => None,
+        };
         Some(Search {
             method: raw.method,
             configurations,
             effective_configurations: raw.effective_configurations,
-            out_of_fold: None,
+            out_of_fold,
             cv,
             trials,
         })

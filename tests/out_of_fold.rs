@@ -1,0 +1,91 @@
+//! The out-of-fold file (`search.out_of_fold`) written from a real scikit-learn 1.9.1 grid search
+//! (`tests/sklearn/generate_oof.py`: every configuration's `cross_val_predict` on the search's
+//! folds, rows shuffled) is read into the table with each configuration's accuracy as
+//! `sklearn.metrics.accuracy_score` computed it, and a manifest naming it checks end to end.
+
+#![allow(clippy::unwrap_used)]
+
+mod common;
+
+use vetscore::evidence::oof::{OofExpect, matching_folds, read_out_of_fold};
+use vetscore::manifest::{Metric, Task};
+use vetscore::stats::OofTruth;
+
+fn expected() -> serde_json::Value {
+    serde_json::from_str(
+        &std::fs::read_to_string(common::root().join("tests/sklearn/knn_oof.expected.json"))
+            .unwrap(),
+    )
+    .unwrap()
+}
+
+#[test]
+fn a_scikit_learn_search_gives_each_configurations_accuracy() {
+    let expected = expected();
+    let expect = OofExpect {
+        task: Task::Binary,
+        metric: Metric::Accuracy,
+        classes: None,
+        fold_rows: Some(&[50, 50, 50, 50]),
+        named_by: "the test",
+    };
+    let path = common::root().join("tests/sklearn/knn_oof.csv");
+    let table = read_out_of_fold(&path, expect).unwrap();
+    assert_eq!(table.rows, 200);
+    assert_eq!(table.configurations, ["0", "1", "2", "3", "4"]);
+    let OofTruth::Classes { names, .. } = &table.truth else {
+        panic!("classification truth expected");
+    };
+    assert_eq!(names, &["0", "1"]);
+    let correctness = table.correctness().unwrap();
+    for (c, id) in table.configurations.iter().enumerate() {
+        let correct = (0..table.rows).filter(|&i| correctness.get(c, i)).count();
+        let want = expected["accuracy"][id].as_f64().unwrap();
+        common::assert_close(id, correct as f64 / table.rows as f64, want, 1e-12);
+        for (k, want) in expected["fold_correct"][id]
+            .as_array()
+            .unwrap()
+            .iter()
+            .enumerate()
+        {
+            let in_fold = (0..table.rows)
+                .filter(|&i| table.folds[i] as usize == k && correctness.get(c, i))
+                .count();
+            assert_eq!(in_fold as u64, want.as_u64().unwrap(), "{id} fold {k}");
+        }
+    }
+    // The score column is predict_proba's positive-class column.
+    assert!(
+        table
+            .scores
+            .as_ref()
+            .unwrap()
+            .iter()
+            .all(|s| (0.0..=1.0).contains(s))
+    );
+    // The configuration whose fold counts are the manifest's is scikit-learn's best_index_.
+    let best: Vec<u64> = expected["fold_correct"]["2"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|v| v.as_u64().unwrap())
+        .collect();
+    assert_eq!(
+        matching_folds(&table, &best),
+        Some(expected["best_index"].as_u64().unwrap() as usize)
+    );
+}
+
+#[test]
+fn a_manifest_with_an_out_of_fold_file_checks_end_to_end() {
+    // The manifest claims the best CV mean with no test scoring, so `cv_test_gap` does not
+    // support it: exit 1 (a verdict), not 2 (an input error).
+    let output = common::vetscore(&[
+        "check",
+        "--today",
+        "2026-12-01",
+        "tests/sklearn/knn_oof.manifest.json",
+    ]);
+    assert_eq!(output.status.code(), Some(1), "{}", common::stderr(&output));
+    assert!(common::stderr(&output).is_empty() || !common::stderr(&output).contains("error:"));
+}
