@@ -1076,6 +1076,36 @@ mod tests {
     }
 
     #[test]
+    fn control_characters_in_ids_are_refused() {
+        // A quoted CSV cell may hold a line break; in a report it would start a new line.
+        let mut builder =
+            OofBuilder::new("t", expect(Task::Binary, Metric::Accuracy), FIVE_COLUMNS);
+        builder.push(
+            2,
+            &OofRecord {
+                configuration: Field::Text(b"a\nb"),
+                row: Field::Text(b"r1\x1b"),
+                fold: Field::Integer(0),
+                label: Field::Text(b"x"),
+                prediction: Some(Field::Text(b"x")),
+                score: None,
+            },
+        );
+        let problems = builder.finish().unwrap_err();
+        let columns: Vec<_> = problems
+            .iter()
+            .map(|p| (p.column, p.message.as_str()))
+            .collect();
+        assert_eq!(
+            columns,
+            [
+                (Some(1), super::super::CONTROL_IN_ID),
+                (Some(2), super::super::CONTROL_IN_ID)
+            ]
+        );
+    }
+
+    #[test]
     fn the_cell_bound_stops_a_diagonal_file_early() {
         // Every record a new configuration and a new row: the table would be n × n cells
         // (each configuration missing all rows but one), so the bound must stop it long before
