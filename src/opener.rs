@@ -18,6 +18,11 @@
 //!    one record and cannot slip past the limit; for line formats (JSON Lines, id lists) a record
 //!    is a line. The error carries the line the record started on ([`limit_line`]).
 //!
+//! Binary files (Parquet) are read at offsets, not as a stream: [`open_binary`] makes the same
+//! checks (1–3) and hands back a [`Binary`] whose length is fixed when it is opened; a read past
+//! that length is an error, so a file that grows while it is read cannot pass its limit. They
+//! have no lines, so no record limit; the reader of the format bounds what it decodes.
+//!
 //! Standard input (`check -`) is the one source that is not a file: [`stdin`] bounds it by the
 //! same reader with its own limit, and diagnostics name it [`STDIN_NAME`].
 //!
@@ -57,6 +62,8 @@ pub enum Kind {
     Predictions,
     /// A search's out-of-fold predictions: every configuration on every training row (CSV).
     OutOfFold,
+    /// A predictions file (Parquet), read at offsets.
+    PredictionsParquet,
     /// A train or test id list (one id per line).
     Ids,
     /// The holdout ledger (JSON Lines).
@@ -78,6 +85,8 @@ enum Framing {
     Lines,
     /// CSV records: a line break inside a quoted field does not end the record.
     Csv,
+    /// A binary file read at offsets through [`Binary`]; only the size limit applies.
+    Binary,
 }
 
 const MIB: u64 = 1 << 20;
@@ -96,7 +105,9 @@ impl Kind {
             Kind::TrialsCsv | Kind::TrialsJsonl => 1024 * MIB,
             // Parsed whole, so it bounds memory (several times its size as parsed values).
             Kind::TrialsResultsJson => 256 * MIB,
-            Kind::Predictions | Kind::OutOfFold | Kind::Ids => 4096 * MIB,
+            Kind::Predictions | Kind::OutOfFold | Kind::PredictionsParquet | Kind::Ids => {
+                4096 * MIB
+            }
             Kind::Ledger => 256 * MIB,
             Kind::Template | Kind::ReviewedPolicies => MIB,
         }
@@ -108,7 +119,7 @@ impl Kind {
             Kind::Manifest | Kind::StdinManifest => "manifest",
             Kind::Policy => "policy",
             Kind::TrialsCsv | Kind::TrialsJsonl | Kind::TrialsResultsJson => "trials file",
-            Kind::Predictions => "predictions file",
+            Kind::Predictions | Kind::PredictionsParquet => "predictions file",
             Kind::OutOfFold => "out-of-fold file",
             Kind::Ids => "id list",
             Kind::Ledger => "ledger",
@@ -122,6 +133,7 @@ impl Kind {
         match self {
             Kind::TrialsCsv | Kind::Predictions | Kind::OutOfFold => Framing::Csv,
             Kind::TrialsJsonl | Kind::Ids | Kind::Ledger | Kind::ReviewedPolicies => Framing::Lines,
+            Kind::PredictionsParquet => Framing::Binary,
             Kind::Manifest
             | Kind::StdinManifest
             | Kind::Policy
@@ -138,6 +150,27 @@ pub type Refusal = String;
 /// Opens `path` as an input of `kind`: a regular file (after following symlinks) within the
 /// kind's size limit, opened without blocking. The refusal says why in a few words.
 pub fn open(path: &Path, kind: Kind) -> Result<Bounded<File>, Refusal> {
+    if kind.framing() == Framing::Binary {
+        return Err(format!(
+            "a {} of this kind is read with open_binary",
+            kind.noun()
+        ));
+    }
+    Ok(Bounded::new(open_checked(path, kind)?.0, kind))
+}
+
+/// Opens `path` as a binary input of `kind` (a kind with binary framing), with the checks of
+/// [`open`]: the handle reads at offsets within the length the file had when it was opened.
+pub fn open_binary(path: &Path, kind: Kind) -> Result<Binary, Refusal> {
+    if kind.framing() != Framing::Binary {
+        return Err(format!("a {} of this kind is read with open", kind.noun()));
+    }
+    let (file, len) = open_checked(path, kind)?;
+    Ok(Binary { file, len })
+}
+
+/// The checked open shared by [`open`] and [`open_binary`]: the file and its length.
+fn open_checked(path: &Path, kind: Kind) -> Result<(File, u64), Refusal> {
     let before = std::fs::metadata(path).map_err(|e| crate::input::io_reason(&e))?;
     refuse_unless_regular(&before, kind)?;
     let mut options = std::fs::OpenOptions::new();
@@ -159,7 +192,58 @@ pub fn open(path: &Path, kind: Kind) -> Result<Bounded<File>, Refusal> {
             return Err("the file was replaced while it was opened".to_owned());
         }
     }
-    Ok(Bounded::new(file, kind))
+    Ok((file, opened.len()))
+}
+
+/// A regular file opened by [`open_binary`], read at offsets within the length it had then.
+#[derive(Debug)]
+pub struct Binary {
+    file: File,
+    len: u64,
+}
+
+impl Binary {
+    /// The file's length when it was opened (within its kind's size limit).
+    pub fn len(&self) -> u64 {
+        self.len
+    }
+
+    /// Whether the file was empty when it was opened.
+    pub fn is_empty(&self) -> bool {
+        self.len == 0
+    }
+
+    /// Fills `buf` from `offset`; an error when that reaches past [`Binary::len`] or the file
+    /// ends early (it shrank).
+    pub fn read_at(&self, offset: u64, buf: &mut [u8]) -> std::io::Result<()> {
+        let end = offset.checked_add(buf.len() as u64);
+        if end.is_none_or(|end| end > self.len) {
+            return Err(std::io::Error::new(
+                std::io::ErrorKind::UnexpectedEof,
+                format!(
+                    "a read of {} bytes at offset {offset} passes the end of the file ({} bytes)",
+                    buf.len(),
+                    self.len
+                ),
+            ));
+        }
+        read_exact_at(&self.file, offset, buf)
+    }
+}
+
+#[cfg(unix)]
+fn read_exact_at(file: &File, offset: u64, buf: &mut [u8]) -> std::io::Result<()> {
+    use std::os::unix::fs::FileExt as _;
+    file.read_exact_at(buf, offset)
+}
+
+#[cfg(not(unix))]
+fn read_exact_at(file: &File, offset: u64, buf: &mut [u8]) -> std::io::Result<()> {
+    use std::io::Seek as _;
+    // A clone shares the cursor; every read seeks first, so no read depends on the last.
+    let mut handle = file.try_clone()?;
+    handle.seek(std::io::SeekFrom::Start(offset))?;
+    handle.read_exact(buf)
 }
 
 fn refuse_unless_regular(metadata: &std::fs::Metadata, kind: Kind) -> Result<(), Refusal> {
@@ -342,7 +426,7 @@ impl<R> Bounded<R> {
     /// Advances the framing over `bytes`; an error once a record passes the limit.
     fn scan(&mut self, bytes: &[u8]) -> std::io::Result<()> {
         let framing = self.kind.framing();
-        if framing == Framing::Whole {
+        if matches!(framing, Framing::Whole | Framing::Binary) {
             return Ok(());
         }
         for &b in bytes {
@@ -362,7 +446,7 @@ impl<R> Bounded<R> {
                     self.csv = next;
                     ends
                 }
-                Framing::Whole => false,
+                Framing::Whole | Framing::Binary => false,
             };
             if b == b'\n' {
                 self.line += 1;

@@ -9,6 +9,7 @@
 //! `u32` indices, scores as `f64`. The ids are kept because the test fingerprint needs them
 //! sorted and a baseline is paired with the model by id; nothing else is kept per row.
 
+pub mod columnar;
 pub mod ids;
 pub mod metric;
 pub mod oof;

@@ -1,8 +1,13 @@
 //! Streaming reader for predictions files, with line and column in every error.
+//!
+//! A file is CSV, or Parquet when its name ends in `.parquet` or it starts with the Parquet magic
+//! bytes. Both feed the same checks row by row ([`Row`]): a CSV problem names its line and
+//! column number, a Parquet problem its 1-based data row and column name.
 
 use std::collections::HashMap;
 use std::path::Path;
 
+use super::columnar::{self, Cell};
 use super::{Columns, IdArena, PredictionSet};
 use crate::diag::{Diagnostic, Place};
 use crate::manifest::Task;
@@ -27,21 +32,71 @@ pub struct Expect<'a> {
 struct Problems {
     file: String,
     list: Vec<Diagnostic>,
+    /// The column names of a columnar file, which its problems name (CSV problems name the
+    /// column by number).
+    names: Option<Vec<String>>,
+}
+
+/// Where a row is: a CSV line, or a columnar file's 1-based data row.
+#[derive(Debug, Clone, Copy)]
+enum At {
+    Line(u64),
+    Row(u64),
+}
+
+/// One row as the checks see it.
+enum Row<'a> {
+    Csv(&'a csv::ByteRecord),
+    Cells(&'a [Cell<'a>]),
+}
+
+impl Row<'_> {
+    fn cell(&self, col: usize) -> Cell<'_> {
+        match self {
+            Row::Csv(record) => Cell::Text(record.get(col).unwrap_or_default()),
+            Row::Cells(cells) => cells.get(col).copied().unwrap_or(Cell::Null),
+        }
+    }
+
+    /// The cell as text, for ids and classes: integers in decimal, booleans as `true`/`false`;
+    /// a null (or a float, which the column check refuses) is empty.
+    fn text(&self, col: usize) -> std::borrow::Cow<'_, [u8]> {
+        match self.cell(col) {
+            Cell::Text(bytes) => bytes.trim_ascii().into(),
+            Cell::Int(i) => i.to_string().into_bytes().into(),
+            Cell::Bool(b) => (if b { &b"true"[..] } else { &b"false"[..] }).into(),
+            Cell::Null | Cell::Float(_) => (&b""[..]).into(),
+        }
+    }
 }
 
 impl Problems {
-    fn add(&mut self, line: u64, column: Option<u64>, what: &str, message: String) {
-        if self.list.len() < MAX_PROBLEMS {
-            self.list.push(Diagnostic::at(
+    fn add(&mut self, at: At, col: usize, what: &str, message: String) {
+        if self.list.len() >= MAX_PROBLEMS {
+            return;
+        }
+        let diagnostic = match at {
+            At::Line(line) => Diagnostic::at(
                 &self.file,
-                Place {
-                    line: Some(line),
-                    column,
-                },
+                Place::new(line, col as u64 + 1),
                 what.to_owned(),
                 message,
-            ));
-        }
+            ),
+            At::Row(row) => Diagnostic::at(
+                &self.file,
+                Place::default(),
+                row_path(row, self.column_name(col)),
+                message,
+            ),
+        };
+        self.list.push(diagnostic);
+    }
+
+    fn column_name(&self, col: usize) -> &str {
+        self.names
+            .as_ref()
+            .and_then(|n| n.get(col))
+            .map_or("?", String::as_str)
     }
 
     fn full(&self) -> bool {
@@ -102,7 +157,7 @@ pub(super) fn parse_f64(cell: &[u8]) -> Option<f64> {
 /// Reads and checks a predictions file.
 pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Vec<Diagnostic>> {
     let file = path.display().to_string();
-    let handle = crate::opener::open(path, crate::opener::Kind::Predictions).map_err(|reason| {
+    let refused = |reason: String| {
         vec![Diagnostic::file(
             &file,
             format!(
@@ -110,25 +165,72 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
                 expect.named_by,
             ),
         )]
-    })?;
-    let mut csv = csv::ReaderBuilder::new()
-        .has_headers(true)
-        .from_reader(std::io::BufReader::with_capacity(1 << 20, handle));
+    };
+    let named_parquet = path
+        .extension()
+        .is_some_and(|e| e.eq_ignore_ascii_case("parquet"));
+    let mut source = if named_parquet {
+        None
+    } else {
+        let handle =
+            crate::opener::open(path, crate::opener::Kind::Predictions).map_err(refused)?;
+        let mut buffered = std::io::BufReader::with_capacity(1 << 20, handle);
+        let head = std::io::BufRead::fill_buf(&mut buffered).unwrap_or_default();
+        (!columnar::looks_like_parquet(head)).then(|| {
+            csv::ReaderBuilder::new()
+                .has_headers(true)
+                .from_reader(buffered)
+        })
+    };
+    let table = match source {
+        Some(_) => None,
+        None => Some(
+            columnar::open(path, crate::opener::Kind::PredictionsParquet)
+                .map_err(refused)?
+                .map_err(|p| vec![columnar_problem(&file, p)])?,
+        ),
+    };
     let mut problems = Problems {
         file: file.clone(),
         list: Vec::new(),
+        names: table
+            .as_ref()
+            .map(|t| t.columns().iter().map(|c| c.name.clone()).collect()),
     };
-    let header = match csv.byte_headers() {
-        Ok(h) => h.clone(),
-        Err(e) => {
-            let (line, reason) = crate::opener::csv_failure(&e);
-            return Err(vec![Diagnostic::at(
-                &file,
-                Place { line, column: None },
-                "(header)",
-                format!("cannot read the header: {reason}"),
-            )]);
+    let header = match (&mut source, &table) {
+        (_, Some(table)) => csv::ByteRecord::from(
+            table
+                .columns()
+                .iter()
+                .map(|c| c.name.as_str())
+                .collect::<Vec<_>>(),
+        ),
+        (Some(csv), None) => match csv.byte_headers() {
+            Ok(h) => h.clone(),
+            Err(e) => {
+                let (line, reason) = crate::opener::csv_failure(&e);
+                return Err(vec![Diagnostic::at(
+                    &file,
+                    Place { line, column: None },
+                    "(header)",
+                    format!("cannot read the header: {reason}"),
+                )]);
+            }
+        },
+        (None, None) => return Err(refused("no reader for it".to_owned())),
+    };
+    let columnar_file = table.is_some();
+    let header_place = |i: usize| {
+        if columnar_file {
+            Place::default()
+        } else {
+            Place::new(1, i as u64 + 1)
         }
+    };
+    let header_path = if columnar_file {
+        "(columns)"
+    } else {
+        "(header)"
     };
     let column = |name: &str| {
         header
@@ -146,8 +248,8 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
             return Err(vec![
                 Diagnostic::at(
                     &file,
-                    Place::new(1, i as u64 + 1),
-                    "(header)",
+                    header_place(i),
+                    header_path,
                     format!(
                         "the column {:?} appears twice",
                         String::from_utf8_lossy(name)
@@ -172,8 +274,8 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
         return Err(vec![
             Diagnostic::at(
                 &file,
-                Place::new(1, 1),
-                "(header)",
+                header_place(0),
+                header_path,
                 format!("missing column{} {}", if missing.len() == 1 { "" } else { "s" }, missing.join(", ")),
             )
             .with_help(if regression {
@@ -184,6 +286,14 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
         ]);
     }
     let id_col = column("id").unwrap_or(0);
+    let mut rows = match (source, table) {
+        (Some(csv), None) => Rows::Csv(csv),
+        (_, Some(table)) => {
+            let wanted = check_types(&file, &table, expect.task)?;
+            Rows::Columnar(table, wanted)
+        }
+        (None, None) => return Err(refused("no reader for it".to_owned())),
+    };
     let mut ids = IdArena::default();
     let columns = if regression {
         let (tc, pc) = (
@@ -192,7 +302,7 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
         );
         let mut target = Vec::new();
         let mut prediction = Vec::new();
-        read_rows(&mut csv, &mut problems, |record, line, p| {
+        read_rows(&mut rows, &mut problems, |record, line, p| {
             let (Some(t), Some(y)) = (
                 number(record, tc, line, "target", p),
                 number(record, pc, line, "prediction", p),
@@ -218,7 +328,7 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
         let mut predicted: Vec<u32> = Vec::new();
         let mut score: Vec<f64> = Vec::new();
         let mut prob_class: Vec<f64> = Vec::new();
-        read_rows(&mut csv, &mut problems, |record, line, p| {
+        read_rows(&mut rows, &mut problems, |record, line, p| {
             let Some(a) = class(&mut classes, record, label_col, line, "label", p) else {
                 return false;
             };
@@ -235,7 +345,8 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
                 score.push(s);
             }
             if !prob_cols.is_empty() {
-                let label = record.get(label_col).unwrap_or_default().trim_ascii();
+                let label = record.text(label_col);
+                let label = &*label;
                 match prob_cols.iter().find(|(c, _)| c == label) {
                     Some((_, c)) => {
                         let Some(v) = number(record, *c, line, "prob", p) else {
@@ -244,7 +355,7 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
                         if !(0.0..=1.0).contains(&v) {
                             p.add(
                                 line,
-                                Some(*c as u64 + 1),
+                                *c,
                                 "prob",
                                 format!("a probability must lie in [0, 1], found {v}"),
                             );
@@ -255,7 +366,7 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
                     None => {
                         p.add(
                             line,
-                            Some(label_col as u64 + 1),
+                            label_col,
                             "label",
                             format!(
                                 "no prob_{} column for this row's label",
@@ -305,19 +416,25 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
     let sorted = ids.sorted();
     let order = sorted.order();
     if let Some((first, second)) = sorted.first_duplicate() {
-        return Err(vec![Diagnostic::at(
-            &file,
-            Place {
-                line: Some(second as u64 + 2),
-                column: Some(id_col as u64 + 1),
-            },
-            "id",
-            format!(
-                "id {:?} appears twice (also on line {})",
-                String::from_utf8_lossy(ids.get(second)),
-                first + 2
-            ),
-        )]);
+        let id = String::from_utf8_lossy(ids.get(second));
+        return Err(vec![if columnar_file {
+            Diagnostic::at(
+                &file,
+                Place::default(),
+                row_path(second as u64 + 1, problems.column_name(id_col)),
+                format!("id {id:?} appears twice (also on row {})", first + 1),
+            )
+        } else {
+            Diagnostic::at(
+                &file,
+                Place {
+                    line: Some(second as u64 + 2),
+                    column: Some(id_col as u64 + 1),
+                },
+                "id",
+                format!("id {id:?} appears twice (also on line {})", first + 2),
+            )
+        }]);
     }
     let positive = match &columns {
         Columns::Classification { classes, .. } => positive_class(classes, expect.positive),
@@ -354,11 +471,110 @@ fn positive_class(classes: &[String], named: Option<&str>) -> Option<u32> {
         .map(|i| i as u32)
 }
 
+/// Where the rows come from.
+enum Rows<R> {
+    Csv(csv::Reader<R>),
+    /// A columnar file and the columns the checks read.
+    Columnar(columnar::Table, Vec<usize>),
+}
+
+/// `row 5, column score`: where a problem in a columnar file is.
+fn row_path(row: u64, column: &str) -> String {
+    format!("row {row}, column {column}")
+}
+
+/// A problem of a columnar file as a diagnostic: its row and column in the path.
+fn columnar_problem(file: &str, problem: columnar::Problem) -> Diagnostic {
+    match (problem.row, problem.column) {
+        (Some(row), Some(column)) => Diagnostic::at(
+            file,
+            Place::default(),
+            row_path(row, &column),
+            problem.message,
+        ),
+        (None, Some(column)) => Diagnostic::at(file, Place::default(), column, problem.message),
+        _ => Diagnostic::file(
+            file,
+            format!("cannot read the Parquet file: {}", problem.message),
+        ),
+    }
+}
+
+/// The columns of a columnar file the checks read, each of a type its role takes: ids are
+/// strings or integers, classes strings, integers or booleans, numbers integers or floats.
+fn check_types(
+    file: &str,
+    table: &columnar::Table,
+    task: Task,
+) -> Result<Vec<usize>, Vec<Diagnostic>> {
+    use columnar::Type;
+    let mut wanted = Vec::new();
+    let mut problems = Vec::new();
+    for (i, column) in table.columns().iter().enumerate() {
+        let name = column.name.trim_ascii();
+        let accepted: &[Type] = match name {
+            "id" => &[Type::Text, Type::Int],
+            "label" | "prediction" if task != Task::Regression => {
+                &[Type::Text, Type::Int, Type::Bool]
+            }
+            "target" | "prediction" | "score" => &[Type::Int, Type::Float],
+            _ if name.starts_with("prob_") => &[Type::Int, Type::Float],
+            _ => continue,
+        };
+        let found = match &column.kind {
+            Ok(kind) if accepted.contains(kind) => {
+                wanted.push(i);
+                continue;
+            }
+            Ok(kind) => kind.noun().to_owned(),
+            Err(other) => other.clone(),
+        };
+        let expected: Vec<&str> = accepted.iter().map(|t| t.noun()).collect();
+        problems.push(
+            Diagnostic::at(
+                file,
+                Place::default(),
+                format!("column {}", column.name),
+                format!(
+                    "the column holds {found}; expected {}",
+                    expected.join(" or ")
+                ),
+            )
+            .with_help("write the column with one of the accepted types (see docs/manifest.md)"),
+        );
+    }
+    if problems.is_empty() {
+        Ok(wanted)
+    } else {
+        Err(problems)
+    }
+}
+
 fn read_rows<R: std::io::Read>(
-    csv: &mut csv::Reader<R>,
+    rows: &mut Rows<R>,
     problems: &mut Problems,
-    mut row: impl FnMut(&csv::ByteRecord, u64, &mut Problems) -> bool,
+    mut row: impl FnMut(&Row<'_>, At, &mut Problems) -> bool,
 ) {
+    let csv = match rows {
+        Rows::Csv(csv) => csv,
+        Rows::Columnar(table, wanted) => {
+            let result = table.visit(wanted, |number, cells| {
+                if problems.full() {
+                    return false;
+                }
+                row(&Row::Cells(cells), At::Row(number), problems);
+                true
+            });
+            if let Err(problem) = result
+                && problems.list.len() < MAX_PROBLEMS
+            {
+                problems
+                    .list
+                    .push(columnar_problem(&problems.file, problem));
+            }
+            return;
+        }
+    };
     let mut record = csv::ByteRecord::new();
     loop {
         if problems.full() {
@@ -368,7 +584,7 @@ fn read_rows<R: std::io::Read>(
             Ok(false) => return,
             Ok(true) => {
                 let line = record.position().map_or(0, |p| p.line());
-                row(&record, line, problems);
+                row(&Row::Csv(&record), At::Line(line), problems);
             }
             Err(e) => {
                 let (line, reason) = crate::opener::csv_failure(&e);
@@ -384,62 +600,59 @@ fn read_rows<R: std::io::Read>(
     }
 }
 
-fn push_id(
-    ids: &mut IdArena,
-    record: &csv::ByteRecord,
-    col: usize,
-    line: u64,
-    p: &mut Problems,
-) -> bool {
-    let id = record.get(col).unwrap_or_default().trim_ascii();
+fn push_id(ids: &mut IdArena, record: &Row<'_>, col: usize, line: At, p: &mut Problems) -> bool {
+    let id = record.text(col);
+    let id = &*id;
     if super::control_at(id).is_some() {
-        p.add(
-            line,
-            Some(col as u64 + 1),
-            "id",
-            super::CONTROL_IN_ID.into(),
-        );
+        p.add(line, col, "id", super::CONTROL_IN_ID.into());
         return false;
     }
     if id.is_empty() {
         p.add(
             line,
-            Some(col as u64 + 1),
+            col,
             "id",
-            "expected a row id, found an empty cell".into(),
+            format!("expected a row id, found {}", empty(record, col)),
         );
         return false;
     }
     if ids.push(id).is_none() {
-        p.add(
-            line,
-            Some(col as u64 + 1),
-            "id",
-            "the ids of this file exceed 4 GiB".into(),
-        );
+        p.add(line, col, "id", "the ids of this file exceed 4 GiB".into());
         return false;
     }
     true
 }
 
-fn number(
-    record: &csv::ByteRecord,
-    col: usize,
-    line: u64,
-    what: &str,
-    p: &mut Problems,
-) -> Option<f64> {
-    let cell = record.get(col).unwrap_or_default();
-    let value = parse_f64(cell);
+/// What an empty cell is called: a null in a columnar file, a blank cell in CSV.
+fn empty(record: &Row<'_>, col: usize) -> &'static str {
+    match record.cell(col) {
+        Cell::Null => "a null cell",
+        _ => "an empty cell",
+    }
+}
+
+fn number(record: &Row<'_>, col: usize, line: At, what: &str, p: &mut Problems) -> Option<f64> {
+    let cell = record.cell(col);
+    let value = match cell {
+        Cell::Text(text) => parse_f64(text),
+        // Integers past 2^53 round, as they do when CSV text is parsed.
+        Cell::Int(i) => Some(i as f64),
+        Cell::Float(v) => Some(v).filter(|v| v.is_finite()),
+        Cell::Bool(_) | Cell::Null => None,
+    };
     if value.is_none() {
+        let found = match cell {
+            Cell::Text(text) => format!("{:?}", String::from_utf8_lossy(text)),
+            Cell::Float(v) => v.to_string(),
+            Cell::Bool(b) => b.to_string(),
+            Cell::Int(i) => i.to_string(),
+            Cell::Null => "a null cell".to_owned(),
+        };
         p.add(
             line,
-            Some(col as u64 + 1),
+            col,
             what,
-            format!(
-                "expected a finite number, found {:?}",
-                String::from_utf8_lossy(cell)
-            ),
+            format!("expected a finite number, found {found}"),
         );
     }
     value
@@ -447,20 +660,24 @@ fn number(
 
 fn class(
     classes: &mut Classes,
-    record: &csv::ByteRecord,
+    record: &Row<'_>,
     col: usize,
-    line: u64,
+    line: At,
     what: &str,
     p: &mut Problems,
 ) -> Option<u32> {
-    let cell = record.get(col).unwrap_or_default().trim_ascii();
+    let cell = record.text(col);
+    let cell = &*cell;
     if cell.is_empty() {
         // A blank cell is no class: read as the class "", blank labels and predictions agreed.
         p.add(
             line,
-            Some(col as u64 + 1),
+            col,
             what,
-            format!("expected a class in the {what} column, found an empty cell"),
+            format!(
+                "expected a class in the {what} column, found {}",
+                empty(record, col)
+            ),
         );
         return None;
     }
@@ -468,7 +685,7 @@ fn class(
     if index.is_none() {
         p.add(
             line,
-            Some(col as u64 + 1),
+            col,
             what,
             format!(
                 "{:?} is not one of the classes {}",
