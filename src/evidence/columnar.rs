@@ -39,7 +39,8 @@ pub fn looks_like_parquet(head: &[u8]) -> bool {
     head.starts_with(MAGIC)
 }
 
-/// One cell of a row.
+/// One cell of a row, as any record source holds it: a CSV cell is `Text`; a columnar file's
+/// cell is typed. Every reader (predictions, out-of-fold results) takes this one type.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Cell<'a> {
     Null,
@@ -47,6 +48,27 @@ pub enum Cell<'a> {
     Int(i64),
     Float(f64),
     Text(&'a [u8]),
+}
+
+impl<'a> Cell<'a> {
+    /// The cell as text, for ids, classes and messages: text trimmed of ASCII spaces, numbers as
+    /// Rust writes them (shortest round trip), booleans as `true`/`false`, a null empty. `scratch`
+    /// holds a number's digits (reused, it saves an allocation per cell).
+    pub fn text<'b>(self, scratch: &'b mut String) -> &'b [u8]
+    where
+        'a: 'b,
+    {
+        use std::fmt::Write as _;
+        scratch.clear();
+        match self {
+            Cell::Text(t) => return t.trim_ascii(),
+            Cell::Null => return b"",
+            Cell::Bool(b) => return if b { b"true" } else { b"false" },
+            Cell::Int(i) => write!(scratch, "{i}"),
+            Cell::Float(x) => write!(scratch, "{x}"),
+        }
+        .map_or(&[], |()| scratch.as_bytes())
+    }
 }
 
 /// What a column holds, as the readers accept or refuse it.

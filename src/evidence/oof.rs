@@ -25,7 +25,8 @@ use std::hash::{DefaultHasher, Hash, Hasher};
 use std::path::Path;
 
 use super::IdArena;
-use super::read::{Classes, parse_f64};
+use super::columnar::Cell;
+use super::read::{Classes, csv_header, parse_f64};
 use crate::diag::{Diagnostic, Place};
 use crate::manifest::{Metric, Task};
 use crate::stats::{OofTable, OofTruth};
@@ -174,37 +175,16 @@ fn needs_scores(metric: Metric) -> bool {
     matches!(metric, Metric::RocAuc | Metric::LogLoss)
 }
 
-/// One cell as a source holds it: text (CSV, a string column) or a typed number (a columnar
-/// integer or float column). A null is `Text(b"")`, a blank cell.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub enum Field<'a> {
-    Text(&'a [u8]),
-    Integer(i64),
-    Number(f64),
-}
-
 /// One line of an out-of-fold file: one configuration's prediction on one row. `prediction` and
 /// `score` are `Some` exactly when the [`Layout`] has those columns.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct OofRecord<'a> {
-    pub configuration: Field<'a>,
-    pub row: Field<'a>,
-    pub fold: Field<'a>,
-    pub label: Field<'a>,
-    pub prediction: Option<Field<'a>>,
-    pub score: Option<Field<'a>>,
-}
-
-/// A field as text: trimmed, numbers written as Rust writes them (shortest round trip).
-fn as_text<'b>(field: &'b Field<'_>, scratch: &'b mut String) -> &'b [u8] {
-    use std::fmt::Write as _;
-    scratch.clear();
-    match field {
-        Field::Text(t) => return t.trim_ascii(),
-        Field::Integer(i) => write!(scratch, "{i}"),
-        Field::Number(x) => write!(scratch, "{x}"),
-    }
-    .map_or(&[], |()| scratch.as_bytes())
+    pub configuration: Cell<'a>,
+    pub row: Cell<'a>,
+    pub fold: Cell<'a>,
+    pub label: Cell<'a>,
+    pub prediction: Option<Cell<'a>>,
+    pub score: Option<Cell<'a>>,
 }
 
 /// One configuration's records, in file order.
@@ -306,7 +286,11 @@ pub struct OofBuilder<'a> {
     records: u64,
     /// Reading stopped at the cell bound.
     over_limit: bool,
-    scratch: [String; 4],
+    /// Digits of a numeric cell read as text (class names), reused from record to record.
+    scratch: String,
+    /// The configuration and row ids of the record being read, reused from record to record so
+    /// a record allocates nothing.
+    ids: [Vec<u8>; 2],
 }
 
 impl<'a> OofBuilder<'a> {
@@ -325,7 +309,8 @@ impl<'a> OofBuilder<'a> {
             classes: Classes::new(expect.classes),
             records: 0,
             over_limit: false,
-            scratch: Default::default(),
+            scratch: String::new(),
+            ids: Default::default(),
         }
     }
 
@@ -355,49 +340,45 @@ impl<'a> OofBuilder<'a> {
         }
     }
 
-    /// An id cell (configuration or row): not blank, no control character.
+    /// Copies an id cell (configuration or row) into `buf`; false, with a problem, when it is
+    /// blank or holds a control character.
     fn id(
         &mut self,
-        slot: usize,
-        field: &Field<'_>,
+        buf: &mut Vec<u8>,
+        field: &Cell<'_>,
         column: usize,
         line: u64,
         what: &str,
-    ) -> Option<Vec<u8>> {
-        let mut scratch = std::mem::take(&mut self.scratch[slot]);
-        let text = as_text(field, &mut scratch).to_vec();
-        self.scratch[slot] = scratch;
-        if text.is_empty() {
-            self.problem(
-                Some(line),
-                Some(column),
-                what,
-                format!("expected a {what} id, found an empty cell"),
-            );
-            return None;
-        }
-        if super::control_at(&text).is_some() {
-            self.problem(Some(line), Some(column), what, super::CONTROL_IN_ID.into());
-            return None;
-        }
-        Some(text)
+    ) -> bool {
+        buf.clear();
+        buf.extend_from_slice(field.text(&mut self.scratch));
+        let message = if buf.is_empty() {
+            format!("expected a {what} id, found an empty cell")
+        } else if super::control_at(buf).is_some() {
+            super::CONTROL_IN_ID.into()
+        } else {
+            return true;
+        };
+        self.problem(Some(line), Some(column), what, message);
+        false
     }
 
-    fn fold(&mut self, field: &Field<'_>, line: u64) -> Option<u32> {
+    fn fold(&mut self, field: &Cell<'_>, line: u64) -> Option<u32> {
         let column = self.layout.fold;
         let parsed = match field {
-            Field::Integer(i) => u32::try_from(*i).ok(),
-            Field::Number(x) if x.fract() == 0.0 && (0.0..=f64::from(u32::MAX)).contains(x) => {
+            Cell::Int(i) => u32::try_from(*i).ok(),
+            Cell::Float(x) if x.fract() == 0.0 && (0.0..=f64::from(u32::MAX)).contains(x) => {
                 Some(*x as u32)
             }
-            Field::Number(_) => None,
-            Field::Text(t) => std::str::from_utf8(t.trim_ascii())
+            Cell::Float(_) => None,
+            Cell::Text(t) => std::str::from_utf8(t.trim_ascii())
                 .ok()
                 .and_then(|t| t.parse::<u32>().ok()),
+            Cell::Null | Cell::Bool(_) => None,
         };
         if parsed.is_none() {
             let mut scratch = String::new();
-            let shown = String::from_utf8_lossy(as_text(field, &mut scratch)).into_owned();
+            let shown = String::from_utf8_lossy(field.text(&mut scratch)).into_owned();
             self.problem(
                 Some(line),
                 Some(column),
@@ -411,15 +392,16 @@ impl<'a> OofBuilder<'a> {
         parsed
     }
 
-    fn number(&mut self, field: &Field<'_>, column: usize, line: u64, what: &str) -> Option<f64> {
+    fn number(&mut self, field: &Cell<'_>, column: usize, line: u64, what: &str) -> Option<f64> {
         let value = match field {
-            Field::Integer(i) => Some(*i as f64),
-            Field::Number(x) => Some(*x).filter(|x| x.is_finite()),
-            Field::Text(t) => parse_f64(t),
+            Cell::Int(i) => Some(*i as f64),
+            Cell::Float(x) => Some(*x).filter(|x| x.is_finite()),
+            Cell::Text(t) => parse_f64(t),
+            Cell::Null | Cell::Bool(_) => None,
         };
         if value.is_none() {
             let mut scratch = String::new();
-            let shown = String::from_utf8_lossy(as_text(field, &mut scratch)).into_owned();
+            let shown = String::from_utf8_lossy(field.text(&mut scratch)).into_owned();
             self.problem(
                 Some(line),
                 Some(column),
@@ -430,18 +412,12 @@ impl<'a> OofBuilder<'a> {
         value
     }
 
-    fn target(
-        &mut self,
-        field: &Field<'_>,
-        column: usize,
-        line: u64,
-        what: &str,
-    ) -> Option<Target> {
+    fn target(&mut self, field: &Cell<'_>, column: usize, line: u64, what: &str) -> Option<Target> {
         if self.expect.task == Task::Regression {
             return self.number(field, column, line, what).map(Target::Value);
         }
-        let mut scratch = std::mem::take(&mut self.scratch[3]);
-        let text = as_text(field, &mut scratch);
+        let mut scratch = std::mem::take(&mut self.scratch);
+        let text = field.text(&mut scratch);
         let found = if text.is_empty() {
             Err(format!(
                 "expected a class in the {what} column, found an empty cell"
@@ -455,7 +431,7 @@ impl<'a> OofBuilder<'a> {
                 )
             })
         };
-        self.scratch[3] = scratch;
+        self.scratch = scratch;
         match found {
             Ok(class) => Some(Target::Class(class)),
             Err(message) => {
@@ -467,15 +443,28 @@ impl<'a> OofBuilder<'a> {
 
     /// Adds one record read on `line` (1-based; the header is line 1 in a CSV file).
     pub fn push(&mut self, line: u64, record: &OofRecord<'_>) {
+        let [mut configuration, mut row] = std::mem::take(&mut self.ids);
+        self.push_with(line, record, &mut configuration, &mut row);
+        self.ids = [configuration, row];
+    }
+
+    /// [`Self::push`] with the buffers the record's two ids are copied into.
+    fn push_with(
+        &mut self,
+        line: u64,
+        record: &OofRecord<'_>,
+        configuration: &mut Vec<u8>,
+        row: &mut Vec<u8>,
+    ) {
         let layout = self.layout;
-        let configuration = self.id(
-            0,
+        let configuration_ok = self.id(
+            configuration,
             &record.configuration,
             layout.configuration,
             line,
             "configuration",
         );
-        let row = self.id(1, &record.row, layout.row, line, "row");
+        let row_ok = self.id(row, &record.row, layout.row, line, "row");
         let fold = self.fold(&record.fold, line);
         let label = self.target(&record.label, layout.label, line, "label");
         let prediction = match (record.prediction, layout.prediction) {
@@ -486,29 +475,24 @@ impl<'a> OofBuilder<'a> {
             (Some(s), Some(c)) => self.score(&s, c, line).map(Some),
             _ => Some(None),
         };
-        let (
-            Some(configuration),
-            Some(row),
-            Some(fold),
-            Some(label),
-            Some(prediction),
-            Some(score),
-        ) = (configuration, row, fold, label, prediction, score)
+        let (true, true, Some(fold), Some(label), Some(prediction), Some(score)) =
+            (configuration_ok, row_ok, fold, label, prediction, score)
         else {
             return;
         };
-        let c = match self.by_configuration.get(configuration.as_slice()) {
+        let (configuration, row) = (&configuration[..], &row[..]);
+        let c = match self.by_configuration.get(configuration) {
             Some(&c) => c,
             None => {
                 let c = self.configurations.len() as u32;
                 self.configurations
-                    .push(String::from_utf8_lossy(&configuration).into_owned());
-                self.by_configuration.insert(configuration, c);
+                    .push(String::from_utf8_lossy(configuration).into_owned());
+                self.by_configuration.insert(configuration.to_vec(), c);
                 self.columns.push(Column::default());
                 c
             }
         };
-        let Some((r, new)) = self.rows.intern(&row) else {
+        let Some((r, new)) = self.rows.intern(row) else {
             self.problem(
                 Some(line),
                 Some(layout.row),
@@ -540,12 +524,12 @@ impl<'a> OofBuilder<'a> {
                 Target::Class(k) => self.truth.classes.push(k),
                 Target::Value(v) => self.truth.values.push(v),
             }
-        } else if !self.same_truth(r, fold, label, line, &row) {
+        } else if !self.same_truth(r, fold, label, line, row) {
             return;
         }
         let column = &mut self.columns[c as usize];
         if !column.mark(r) {
-            let id = String::from_utf8_lossy(&row).into_owned();
+            let id = String::from_utf8_lossy(row).into_owned();
             let name = self.configurations[c as usize].clone();
             self.problem(
                 Some(line),
@@ -567,7 +551,7 @@ impl<'a> OofBuilder<'a> {
         self.records += 1;
     }
 
-    fn score(&mut self, field: &Field<'_>, column: usize, line: u64) -> Option<f64> {
+    fn score(&mut self, field: &Cell<'_>, column: usize, line: u64) -> Option<f64> {
         let value = self.number(field, column, line, "score")?;
         if self.expect.metric == Metric::LogLoss && !(0.0..=1.0).contains(&value) {
             self.problem(
@@ -816,8 +800,8 @@ impl<'a> OofBuilder<'a> {
     }
 }
 
-fn cell(record: &csv::ByteRecord, c: usize) -> Field<'_> {
-    Field::Text(record.get(c).unwrap_or_default())
+fn cell(record: &csv::ByteRecord, c: usize) -> Cell<'_> {
+    Cell::Text(record.get(c).unwrap_or_default())
 }
 
 /// Reads and checks an out-of-fold CSV file.
@@ -835,18 +819,7 @@ pub fn read_out_of_fold(path: &Path, expect: OofExpect<'_>) -> Result<OofTable, 
     let mut csv = csv::ReaderBuilder::new()
         .has_headers(true)
         .from_reader(std::io::BufReader::with_capacity(1 << 20, handle));
-    let header = match csv.byte_headers() {
-        Ok(h) => h.clone(),
-        Err(e) => {
-            let (line, reason) = crate::opener::csv_failure(&e);
-            return Err(vec![Diagnostic::at(
-                &file,
-                Place { line, column: None },
-                "(header)",
-                format!("cannot read the header: {reason}"),
-            )]);
-        }
-    };
+    let header = csv_header(&mut csv, &file)?;
     let layout = Layout::from_header(&file, header.iter(), &expect).map_err(|d| vec![d])?;
     let mut builder = OofBuilder::new(&file, expect, layout);
     let mut record = csv::ByteRecord::new();
@@ -945,7 +918,7 @@ mod tests {
         let mut builder = OofBuilder::new("t.csv", expect, layout);
         for (i, line) in lines.enumerate() {
             let cells: Vec<&[u8]> = line.split(',').map(str::as_bytes).collect();
-            let field = |c: usize| Field::Text(cells[c]);
+            let field = |c: usize| Cell::Text(cells[c]);
             builder.push(
                 i as u64 + 2,
                 &OofRecord {
@@ -991,11 +964,11 @@ mod tests {
             builder.push(
                 1,
                 &OofRecord {
-                    configuration: Field::Integer(4),
-                    row: Field::Integer(row),
-                    fold: Field::Integer(fold),
-                    label: Field::Number(truth),
-                    prediction: Some(Field::Number(pred)),
+                    configuration: Cell::Int(4),
+                    row: Cell::Int(row),
+                    fold: Cell::Int(fold),
+                    label: Cell::Float(truth),
+                    prediction: Some(Cell::Float(pred)),
                     score: None,
                 },
             );
@@ -1083,11 +1056,11 @@ mod tests {
         builder.push(
             2,
             &OofRecord {
-                configuration: Field::Text(b"a\nb"),
-                row: Field::Text(b"r1\x1b"),
-                fold: Field::Integer(0),
-                label: Field::Text(b"x"),
-                prediction: Some(Field::Text(b"x")),
+                configuration: Cell::Text(b"a\nb"),
+                row: Cell::Text(b"r1\x1b"),
+                fold: Cell::Int(0),
+                label: Cell::Text(b"x"),
+                prediction: Some(Cell::Text(b"x")),
                 score: None,
             },
         );
@@ -1120,11 +1093,11 @@ mod tests {
             builder.push(
                 i as u64 + 2,
                 &OofRecord {
-                    configuration: Field::Integer(i),
-                    row: Field::Integer(i),
-                    fold: Field::Integer(0),
-                    label: Field::Text(b"a"),
-                    prediction: Some(Field::Text(b"a")),
+                    configuration: Cell::Int(i),
+                    row: Cell::Int(i),
+                    fold: Cell::Int(0),
+                    label: Cell::Text(b"a"),
+                    prediction: Some(Cell::Text(b"a")),
                     score: None,
                 },
             );

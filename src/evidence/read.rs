@@ -58,14 +58,12 @@ impl Row<'_> {
         }
     }
 
-    /// The cell as text, for ids and classes: integers in decimal, booleans as `true`/`false`;
-    /// a null (or a float, which the column check refuses) is empty.
-    fn text(&self, col: usize) -> std::borrow::Cow<'_, [u8]> {
+    /// The cell as text, for ids and classes ([`Cell::text`]; `digits` holds an integer's
+    /// digits). A float, which the column check refuses here, is empty.
+    fn text<'b>(&'b self, col: usize, digits: &'b mut String) -> &'b [u8] {
         match self.cell(col) {
-            Cell::Text(bytes) => bytes.trim_ascii().into(),
-            Cell::Int(i) => i.to_string().into_bytes().into(),
-            Cell::Bool(b) => (if b { &b"true"[..] } else { &b"false"[..] }).into(),
-            Cell::Null | Cell::Float(_) => (&b""[..]).into(),
+            Cell::Float(_) => b"",
+            other => other.text(digits),
         }
     }
 }
@@ -205,18 +203,7 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
                 .map(|c| c.name.as_str())
                 .collect::<Vec<_>>(),
         ),
-        (Some(csv), None) => match csv.byte_headers() {
-            Ok(h) => h.clone(),
-            Err(e) => {
-                let (line, reason) = crate::opener::csv_failure(&e);
-                return Err(vec![Diagnostic::at(
-                    &file,
-                    Place { line, column: None },
-                    "(header)",
-                    format!("cannot read the header: {reason}"),
-                )]);
-            }
-        },
+        (Some(csv), None) => csv_header(csv, &file)?,
         (None, None) => return Err(refused("no reader for it".to_owned())),
     };
     let columnar_file = table.is_some();
@@ -345,8 +332,8 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
                 score.push(s);
             }
             if !prob_cols.is_empty() {
-                let label = record.text(label_col);
-                let label = &*label;
+                let mut digits = String::new();
+                let label = record.text(label_col, &mut digits);
                 match prob_cols.iter().find(|(c, _)| c == label) {
                     Some((_, c)) => {
                         let Some(v) = number(record, *c, line, "prob", p) else {
@@ -601,8 +588,8 @@ fn read_rows<R: std::io::Read>(
 }
 
 fn push_id(ids: &mut IdArena, record: &Row<'_>, col: usize, line: At, p: &mut Problems) -> bool {
-    let id = record.text(col);
-    let id = &*id;
+    let mut digits = String::new();
+    let id = record.text(col, &mut digits);
     if super::control_at(id).is_some() {
         p.add(line, col, "id", super::CONTROL_IN_ID.into());
         return false;
@@ -666,8 +653,8 @@ fn class(
     what: &str,
     p: &mut Problems,
 ) -> Option<u32> {
-    let cell = record.text(col);
-    let cell = &*cell;
+    let mut digits = String::new();
+    let cell = record.text(col, &mut digits);
     if cell.is_empty() {
         // A blank cell is no class: read as the class "", blank labels and predictions agreed.
         p.add(
@@ -695,4 +682,21 @@ fn class(
         );
     }
     index
+}
+
+/// The header record of a CSV file, or the one diagnostic (file and line) that says why it
+/// cannot be read. Every CSV reader of per-row evidence starts here.
+pub(super) fn csv_header<R: std::io::Read>(
+    csv: &mut csv::Reader<R>,
+    file: &str,
+) -> Result<csv::ByteRecord, Vec<Diagnostic>> {
+    csv.byte_headers().cloned().map_err(|e| {
+        let (line, reason) = crate::opener::csv_failure(&e);
+        vec![Diagnostic::at(
+            file,
+            Place { line, column: None },
+            "(header)",
+            format!("cannot read the header: {reason}"),
+        )]
+    })
 }

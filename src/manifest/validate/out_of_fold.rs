@@ -76,8 +76,15 @@ impl Validator<'_> {
             }
         };
         let shown = resolved.display().to_string();
+        // The selected configuration's id, where it came from (for the message) and the key
+        // path a missing id is reported at.
         let chosen = match (named.trial, trials.and_then(|t| t.selected_id.as_deref())) {
-            (Some((id, place)), _) => Some((id, place, "search.selected_trial".to_owned())),
+            (Some((id, place)), _) => Some((
+                id,
+                place,
+                "search.selected_trial".to_owned(),
+                format!("{}.selected_trial", named.path),
+            )),
             (None, Some(id)) => Some((
                 id,
                 named.place,
@@ -87,18 +94,14 @@ impl Validator<'_> {
                         .and_then(|t| t.selected_by)
                         .unwrap_or("from the trials")
                 ),
+                key,
             )),
             (None, None) => None,
         };
         let selected = match chosen {
-            Some((id, place, by)) => match table.position(id) {
+            Some((id, place, by, path)) => match table.position(id) {
                 Some(i) => Some(i),
                 None => {
-                    let path = if named.trial.is_some() {
-                        format!("{}.selected_trial", named.path)
-                    } else {
-                        key
-                    };
                     self.out.push(
                         Diagnostic::at(
                             self.file,
