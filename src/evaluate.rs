@@ -103,6 +103,7 @@ pub fn evaluate_reviewed(
         base: None,
         base_split: None,
         review,
+        threads: std::thread::available_parallelism().map_or(1, |n| n.get().min(8)),
     };
     let assessed: Vec<ModelAssessment> = models
         .into_iter()

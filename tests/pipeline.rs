@@ -348,7 +348,7 @@ fn the_readme_merge_request_story_holds() {
     assert_eq!(report["counts"]["claims_not_supported"], 1);
     assert_eq!(report["policy_review"]["models"], 6);
     // sha256sum fixtures/demo/merge-request/policy.yaml (GNU coreutils).
-    let digest = "5ee7eae70f2b1e9f2d72b7bd6e3c572ae93e91e9e79b83d1238467d1774d5e6d";
+    let digest = "f76ac5e35d76f8f81c8a72a79dd80a1b4ee5c2a5626adb2639b56ebced2113b5";
     assert_eq!(report["policy_review"]["digest"], digest);
     readme_excerpt_is_in(&markdown);
 

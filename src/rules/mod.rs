@@ -173,6 +173,21 @@ macro_rules! numeric_setting {
 }
 numeric_setting!(f64, u64);
 
+/// An optional bound: absent is the loosest value when a larger one lets more through.
+impl SettingValue for Option<f64> {
+    fn show(&self) -> String {
+        self.map_or_else(|| "none".to_owned(), |v| v.to_string())
+    }
+    fn is_looser(&self, base: &Self, way: Looser) -> bool {
+        match (way, self, base) {
+            (Looser::Larger, None, Some(_)) => true,
+            (Looser::Larger, Some(_), None) => false,
+            (Looser::Larger, Some(a), Some(b)) => a > b,
+            _ => self != base,
+        }
+    }
+}
+
 impl SettingValue for bool {
     fn show(&self) -> String {
         self.to_string()
@@ -387,6 +402,8 @@ pub struct Context {
     pub base_split: Option<Option<String>>,
     /// What the base branch says about reviewing this change's policy.
     pub review: PolicyReview,
+    /// Threads a rule may use for a large computation (BBC-CV); results do not depend on it.
+    pub threads: usize,
 }
 
 /// What the base branch says about the policy under review, besides its own policy.
