@@ -38,10 +38,11 @@ pub fn check(file: &str, text: &str, schema: &Value) -> Vec<Diagnostic> {
         file,
         root: schema,
         tree: &tree,
+        path: Vec::new(),
         problems: Vec::new(),
     };
     if let Some(root) = tree.root {
-        walk.node(root, &walk.alternatives(schema), "", 0);
+        walk.node(root, &walk.alternatives(schema), 0);
     }
     walk.problems
 }
@@ -137,24 +138,33 @@ struct Walk<'a, 't> {
     file: &'a str,
     root: &'a Value,
     tree: &'a Tree<'t>,
+    /// The key path of the node being walked, formatted only for a problem.
+    path: Vec<Step<'a>>,
     problems: Vec<Diagnostic>,
 }
 
+/// One step of a key path: a mapping key or a list index.
+enum Step<'a> {
+    Key(&'a str),
+    Index(usize),
+}
+
 impl<'a> Walk<'a, '_> {
-    /// Checks node `id`, which must satisfy one of `schemas`, at key path `path`.
-    fn node(&mut self, id: usize, schemas: &[&'a Value], path: &str, depth: usize) {
-        if depth > MAX_DEPTH || schemas.is_empty() {
+    /// Checks node `id`, which must satisfy one of `schemas`.
+    fn node(&mut self, id: usize, schemas: &[&'a Value], depth: usize) {
+        // Nothing is refused inside a value the schema leaves free (`metadata`).
+        if depth > MAX_DEPTH || schemas.is_empty() || schemas.contains(&&ANY) {
             return;
         }
         let tree = self.tree;
         match tree.target(id) {
-            Some(Node::Scalar { text, style, place }) => {
-                self.scalar(text, *style, *place, schemas, path)
-            }
+            Some(Node::Scalar { text, style, place }) => self.scalar(text, *style, *place, schemas),
             Some(Node::Sequence(items)) => {
                 let inner = self.children(schemas, "array", |s| s.get("items"));
                 for (i, item) in items.iter().enumerate() {
-                    self.node(*item, &inner, &format!("{path}[{i}]"), depth + 1);
+                    self.path.push(Step::Index(i));
+                    self.node(*item, &inner, depth + 1);
+                    self.path.pop();
                 }
             }
             Some(Node::Mapping(entries)) => {
@@ -167,41 +177,31 @@ impl<'a> Walk<'a, '_> {
                     };
                     if key == "<<" && *style == ScalarStyle::Plain {
                         // A merge key: its mapping (or list of mappings) joins this one.
-                        self.merged(*value, schemas, path, depth + 1);
+                        self.merged(*value, schemas, depth + 1);
                         continue;
                     }
                     let inner = self.children(schemas, "object", |s| property(s, key));
-                    let path = if path.is_empty() {
-                        key.to_string()
-                    } else {
-                        format!("{path}.{key}")
-                    };
-                    self.node(*value, &inner, &path, depth + 1);
+                    self.path.push(Step::Key(key));
+                    self.node(*value, &inner, depth + 1);
+                    self.path.pop();
                 }
             }
             Some(Node::Alias(_)) | None => {}
         }
     }
 
-    fn merged(&mut self, id: usize, schemas: &[&'a Value], path: &str, depth: usize) {
+    fn merged(&mut self, id: usize, schemas: &[&'a Value], depth: usize) {
         match self.tree.target(id) {
             Some(Node::Sequence(items)) => {
                 for item in items {
-                    self.node(*item, schemas, path, depth + 1);
+                    self.node(*item, schemas, depth + 1);
                 }
             }
-            _ => self.node(id, schemas, path, depth),
+            _ => self.node(id, schemas, depth),
         }
     }
 
-    fn scalar(
-        &mut self,
-        text: &str,
-        style: ScalarStyle,
-        place: Place,
-        schemas: &[&Value],
-        path: &str,
-    ) {
+    fn scalar(&mut self, text: &str, style: ScalarStyle, place: Place, schemas: &[&Value]) {
         if style == ScalarStyle::Plain || schemas.iter().any(|s| admits(s, "string")) {
             return;
         }
@@ -220,6 +220,17 @@ impl<'a> Walk<'a, '_> {
             _ => "write it as a plain value on the key's line",
         };
         let shown: String = text.chars().take(40).collect();
+        let mut path = String::new();
+        for step in &self.path {
+            match step {
+                Step::Key(key) if path.is_empty() => path.push_str(key),
+                Step::Key(key) => {
+                    path.push('.');
+                    path.push_str(key);
+                }
+                Step::Index(i) => path.push_str(&format!("[{i}]")),
+            }
+        }
         self.problems.push(Diagnostic::at(
             self.file,
             place,
