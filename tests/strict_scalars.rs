@@ -162,3 +162,77 @@ fn strings_that_look_like_numbers_or_booleans_stay_strings() {
         assert!(errors.is_empty(), "{file}: {errors:#?}");
     }
 }
+
+/// A manifest's values: (key path for the message, YAML text, whether the schema wants a string).
+/// The texts are what a writer might put there; the quoting is drawn by the property below.
+const FIELDS: [(&str, &str, bool); 8] = [
+    ("models[0].name", "2026", true),
+    ("models[0].data.train_rows", "100", false),
+    ("models[0].data.test_rows", "50", false),
+    ("models[0].data.test_fingerprint", "1e3", true),
+    ("models[0].holdout[0].score", "0.8", false),
+    ("models[0].holdout[0].rows", "50", false),
+    ("models[0].claim.value", "0.8", false),
+    ("models[0].claim.beats_baseline", "false", false),
+];
+
+/// The manifest with each field written plain (`None`) or in the quotes given.
+fn manifest_with(quotes: &[Option<char>]) -> String {
+    let v: Vec<String> = FIELDS
+        .iter()
+        .zip(quotes)
+        .map(|((_, text, _), q)| match q {
+            Some(q) => format!("{q}{text}{q}"),
+            None => (*text).to_owned(),
+        })
+        .collect();
+    format!(
+        "format_version: 1\nmodels:\n  - name: {}\n    task: binary\n    metric: accuracy\n    \
+         data: {{train_rows: {}, test_rows: {}, test_fingerprint: {}}}\n    holdout:\n      \
+         - {{score: {}, rows: {}}}\n    claim: {{value: {}, basis: test, beats_baseline: {}}}\n",
+        v[0], v[1], v[2], v[3], v[4], v[5], v[6], v[7]
+    )
+}
+
+proptest::proptest! {
+    #![proptest_config(proptest::prelude::ProptestConfig::with_cases(64))]
+
+    /// Whatever the quoting, the parser refuses exactly the fields the jsonschema crate
+    /// (0.61) finds of the wrong type in the YAML 1.2 reading, and names each one. String
+    /// fields are always quoted here: written plain, `2026` or `1e3` is a number to a YAML 1.2
+    /// reader but stays the string it must be to the parser, the one place it is more lenient
+    /// than the schema.
+    #[test]
+    fn the_parser_refuses_what_the_schema_rejects(
+        quotes in proptest::collection::vec(
+            proptest::option::of(proptest::sample::select(vec!['"', '\''])),
+            FIELDS.len(),
+        )
+    ) {
+        let mut quotes = quotes;
+        for (q, (_, _, string)) in quotes.iter_mut().zip(FIELDS) {
+            if string && q.is_none() {
+                *q = Some('"');
+            }
+        }
+        let text = manifest_with(&quotes);
+        let refused: Vec<String> =
+            match vetscore::input::parse::<vetscore::manifest::raw::RawManifest>(
+                "m.yaml",
+                &text,
+                vetscore::input::Syntax::Yaml,
+            ) {
+                Ok(_) => Vec::new(),
+                Err(problems) => problems.into_iter().filter_map(|d| d.path).collect(),
+            };
+        let schema_errors = schema_errors("manifest", &text);
+        let wrong: Vec<&str> = FIELDS
+            .iter()
+            .zip(&quotes)
+            .filter(|((_, _, string), q)| q.is_some() && !string)
+            .map(|((path, _, _), _)| *path)
+            .collect();
+        proptest::prop_assert_eq!(&refused, &wrong, "{}", text);
+        proptest::prop_assert_eq!(schema_errors.len(), wrong.len(), "{}: {:?}", text, schema_errors);
+    }
+}

@@ -28,11 +28,15 @@ use crate::diag::{Diagnostic, Place};
 const MAX_DEPTH: usize = 4_096;
 
 /// Every scalar of `text` that is quoted where `schema` allows only numbers or booleans, as
-/// diagnostics of `file`. A text granit-parser cannot read yields nothing: serde-saphyr, which
-/// read it first, is the judge of syntax.
+/// diagnostics of `file`. serde-saphyr runs granit-parser with the same limits (lookahead, flow
+/// and block nesting are granit-parser's defaults in both), so a text it accepted reads here too;
+/// should it not, the file is refused rather than passed unchecked.
 pub fn check(file: &str, text: &str, schema: &Value) -> Vec<Diagnostic> {
     let Some(tree) = Tree::parse(text) else {
-        return Vec::new();
+        return vec![Diagnostic::file(
+            file,
+            "the YAML parser could not read the file a second time to check its value types",
+        )];
     };
     let mut walk = Walk {
         file,
