@@ -158,7 +158,7 @@ pub fn manifest(data: &[u8]) {
     let (file, syntax) = syntax(selector);
     let raw = match input::parse::<manifest::raw::RawManifest>(file, text, syntax) {
         Ok(raw) => raw,
-        Err(d) => return assert_rejected(&[d]),
+        Err(d) => return assert_rejected(&d),
     };
     match manifest::validate(file, raw, std::path::Path::new(".")) {
         Ok(models) => {
@@ -185,7 +185,7 @@ pub fn policy(data: &[u8]) {
     let (file, syntax) = syntax(selector);
     let raw = match input::parse::<policy::RawPolicy>(file, text, syntax) {
         Ok(raw) => raw,
-        Err(d) => return assert_rejected(&[d]),
+        Err(d) => return assert_rejected(&d),
     };
     match policy::validate(file, raw, "fuzz".to_owned()) {
         Ok(policy) => {

@@ -920,8 +920,17 @@ fn write_output(path: &Path, text: &str) -> Result<()> {
             .document(text)
             .context("writing the report to standard output");
     }
-    if path.is_dir() {
-        bail!("cannot write {}: it is a directory", path.display());
+    // The atomic rename would replace whatever stands at the path: run as root with
+    // `--json /dev/full` (or `/dev/stdout`), it swapped the device for a regular file.
+    if let Ok(meta) = std::fs::metadata(path)
+        && !meta.is_file()
+    {
+        let what = if meta.is_dir() {
+            "it is a directory"
+        } else {
+            "it is not a regular file (a device, pipe or socket); give `-` for standard output"
+        };
+        bail!("cannot write {}: {what}", path.display());
     }
     crate::atomic::write(path, text.as_bytes())
         .with_context(|| format!("cannot write {}", path.display()))

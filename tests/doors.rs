@@ -679,7 +679,7 @@ fn parser_messages_speak_to_the_manifest_author() {
         // YAML 1.1 booleans are strings to the JSON Schema, so the parser refuses them too.
         (
             manifest.replace("basis: test}", "basis: test, beats_baseline: yes}"),
-            "invalid boolean (strict mode expects true/false), found `yes`",
+            "invalid boolean: expected true or false, found `yes`",
         ),
         (
             manifest.replace("name: door-model", "name: ~"),
@@ -699,7 +699,12 @@ fn parser_messages_speak_to_the_manifest_author() {
         let run = check(dir.path(), &[]);
         assert_eq!(run.code, Some(2), "{run:?}");
         assert!(run.stderr.contains(expected), "{expected}: {}", run.stderr);
-        for internal in ["from_str_multiple", "Option<String>", "string scalar"] {
+        for internal in [
+            "from_str_multiple",
+            "Option<String>",
+            "string scalar",
+            "strict mode",
+        ] {
             assert!(!run.stderr.contains(internal), "{}", run.stderr);
         }
     }
@@ -742,4 +747,164 @@ fn a_margin_no_split_can_reach_is_refused() {
         "{}",
         run.stderr
     );
+}
+
+#[test]
+fn quoted_numbers_and_booleans_are_refused_with_the_type_expected() {
+    // `train_rows: "100"` was read as 100 (and, in an earlier version, refused as "expected
+    // string scalar"); the JSON Schema rejects it, so the parser does too.
+    let dir = tempfile::tempdir().unwrap();
+    scenario(dir.path());
+    let manifest = std::fs::read_to_string(dir.path().join("manifest.yaml")).unwrap();
+    let quoted = manifest
+        .replace("train_rows: 8", "train_rows: \"8\"")
+        .replace("basis: test}", "basis: test, beats_baseline: 'false'}");
+    std::fs::write(dir.path().join("manifest.yaml"), quoted).unwrap();
+    let run = check(dir.path(), &[]);
+    // Line 7 is `      train_rows: "8"`: the quote is the 19th character.
+    refused(
+        &run,
+        "manifest.yaml:7:19",
+        "models[0].data.train_rows: expected a number, found the string \"8\"; write it without quotes",
+    );
+    assert!(
+        run.stderr.contains(
+            "models[0].claim.beats_baseline: expected a boolean (true or false), found the string \"false\""
+        ),
+        "{}",
+        run.stderr
+    );
+}
+
+#[test]
+fn an_over_long_trials_jsonl_line_is_reported_at_its_line() {
+    // An over-long trials line was reported at line 0.
+    let dir = tempfile::tempdir().unwrap();
+    scenario(dir.path());
+    let manifest = std::fs::read_to_string(dir.path().join("manifest.yaml"))
+        .unwrap()
+        .replace("trials.csv", "trials.jsonl");
+    std::fs::write(dir.path().join("manifest.yaml"), manifest).unwrap();
+    let long = "x".repeat(2 << 20);
+    std::fs::write(
+        dir.path().join("trials.jsonl"),
+        format!(
+            "{{\"id\": \"c1\", \"fold_scores\": [0.75, 0.5]}}\n{{\"id\": \"{long}\", \"fold_scores\": [0.5, 0.5]}}\n"
+        ),
+    )
+    .unwrap();
+    let run = check(dir.path(), &[]);
+    refused(
+        &run,
+        "trials.jsonl:2:",
+        "line 2 is longer than 1048576 bytes",
+    );
+}
+
+#[test]
+fn the_node_limit_help_blames_aliases_only_where_there_are_some() {
+    // serde-saphyr's node budget is 250,000 values (docs/manifest.md); 300,000 metadata values
+    // exceed it with no alias in the file, and a few aliases of a 1,000-value list exceed it by
+    // expansion.
+    let dir = tempfile::tempdir().unwrap();
+    scenario(dir.path());
+    let manifest = std::fs::read_to_string(dir.path().join("manifest.yaml")).unwrap();
+    let plain = format!(
+        "{manifest}metadata:\n  values: [{}]\n",
+        vec!["1"; 300_000].join(", ")
+    );
+    std::fs::write(dir.path().join("manifest.yaml"), &plain).unwrap();
+    let run = check(dir.path(), &[]);
+    refused(
+        &run,
+        "manifest.yaml",
+        "the document exceeds the limit on nodes",
+    );
+    assert!(
+        run.stderr
+            .contains("help: split the models over several manifests"),
+        "{}",
+        run.stderr
+    );
+    assert!(!run.stderr.contains("aliases (`&a`"), "{}", run.stderr);
+    let list = vec!["1"; 1_000].join(", ");
+    let aliases = vec!["*l"; 300].join(", ");
+    let aliased = format!("{manifest}metadata:\n  list: &l [{list}]\n  copies: [{aliases}]\n");
+    std::fs::write(dir.path().join("manifest.yaml"), &aliased).unwrap();
+    let run = check(dir.path(), &[]);
+    assert_eq!(run.code, Some(2), "{run:?}");
+    assert!(
+        run.stderr
+            .contains("anchors and aliases (`&a`, `*a`) can expand"),
+        "{}",
+        run.stderr
+    );
+}
+
+#[cfg(unix)]
+#[test]
+fn a_report_path_that_is_a_pipe_is_refused_not_replaced() {
+    // The atomic rename replaced whatever stood at the report path; as root, `--json /dev/full`
+    // turned the device into a regular file. A FIFO stands in for the device here.
+    use std::os::unix::fs::FileTypeExt as _;
+    let dir = tempfile::tempdir().unwrap();
+    scenario(dir.path());
+    let fifo = dir.path().join("report.json");
+    let made = std::process::Command::new("mkfifo")
+        .arg(&fifo)
+        .status()
+        .unwrap();
+    assert!(made.success());
+    let run = check(dir.path(), &["--json", "report.json"]);
+    assert_eq!(run.code, Some(3), "{run:?}");
+    assert!(
+        run.stderr
+            .contains("cannot write report.json: it is not a regular file"),
+        "{}",
+        run.stderr
+    );
+    assert!(
+        std::fs::symlink_metadata(&fifo)
+            .unwrap()
+            .file_type()
+            .is_fifo()
+    );
+}
+
+#[test]
+fn invisible_characters_and_github_references_in_names_are_inert() {
+    // A right-to-left override, a zero-width space, an issue reference and a commit id in a
+    // model name: the terminal shows the invisible characters by code point, and in the
+    // Markdown comment no `#123` or bare 40-hex word remains for GitHub to link.
+    let commit = "0123456789abcdef0123456789abcdef01234567";
+    let name = format!("fix\u{202e}txt.exe\u{200b} #123 {commit}");
+    let dir = tempfile::tempdir().unwrap();
+    scenario(dir.path());
+    let manifest = std::fs::read_to_string(dir.path().join("manifest.yaml"))
+        .unwrap()
+        .replace(
+            "name: door-model",
+            &format!("name: {}", serde_json::to_string(&name).unwrap()),
+        );
+    std::fs::write(dir.path().join("manifest.yaml"), manifest).unwrap();
+    let run = check(dir.path(), &[]);
+    assert!(matches!(run.code, Some(0 | 1)), "{run:?}");
+    assert!(
+        run.stdout.contains("fix<U+202E>txt.exe<U+200B>"),
+        "{}",
+        run.stdout
+    );
+    let run = check(dir.path(), &["--markdown", "-"]);
+    assert!(matches!(run.code, Some(0 | 1)), "{run:?}");
+    let markdown = &run.stdout;
+    // The Markdown escapes the dot and shows the two characters by code point.
+    assert!(
+        markdown.contains("fix&lt;U\\+202E&gt;txt\\.exe&lt;U\\+200B&gt;"),
+        "{markdown}"
+    );
+    for raw in ['\u{202e}', '\u{200b}'] {
+        assert!(!markdown.contains(raw), "{raw:?} in {markdown}");
+    }
+    assert!(!markdown.contains("#123"), "{markdown}");
+    assert!(!markdown.contains(commit), "{markdown}");
 }

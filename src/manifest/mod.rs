@@ -279,8 +279,7 @@ pub fn load(path: &Path, root: &Path) -> Result<Vec<Model>, Vec<Diagnostic>> {
             .map_err(|d| vec![d])?;
         (path.display().to_string(), text)
     };
-    let raw: raw::RawManifest =
-        input::parse(&file, &text, Syntax::detect(path, &text)).map_err(|d| vec![d])?;
+    let raw: raw::RawManifest = input::parse(&file, &text, Syntax::detect(path, &text))?;
     validate(&file, raw, root)
 }
 

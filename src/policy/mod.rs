@@ -218,8 +218,7 @@ impl Policy {
         let file = path.display().to_string();
         let text = crate::opener::read_text(Some(path), crate::opener::Kind::Policy)
             .map_err(|d| vec![d])?;
-        let raw: RawPolicy =
-            input::parse(&file, &text, Syntax::detect(path, &text)).map_err(|d| vec![d])?;
+        let raw: RawPolicy = input::parse(&file, &text, Syntax::detect(path, &text))?;
         let digest = hex(&Sha256::digest(text.as_bytes()));
         let mut policy = validate(&file, raw, digest)?;
         let key_line = |id: &str, line: u64| rule_key_line(&text, id, line);

@@ -4,9 +4,13 @@
 //! forms such as comments or `.nan` are not accepted in a `.json` file), then both formats are
 //! deserialized by serde-saphyr, whose node locations give every later diagnostic a line and
 //! column. serde-saphyr also rejects duplicate keys and enforces alias, depth and size budgets.
+//! What it would coerce (a quoted number or boolean) is refused by a second walk, [`scalars`].
+
+mod scalars;
 
 use std::path::Path;
 
+use schemars::JsonSchema;
 use serde::de::DeserializeOwned;
 
 use crate::diag::{Diagnostic, Place};
@@ -40,8 +44,29 @@ pub fn io_reason(error: &std::io::Error) -> String {
     }
 }
 
-/// Parses `text` into `T`, reporting syntax and type errors with their position.
-pub fn parse<T: DeserializeOwned>(file: &str, text: &str, syntax: Syntax) -> Result<T, Diagnostic> {
+/// Parses `text` into `T`, reporting syntax and type errors with their position; a quoted value
+/// where `T`'s JSON Schema allows only a number or a boolean is refused too (see [`scalars`]),
+/// every such value in the file at once.
+pub fn parse<T: DeserializeOwned + JsonSchema>(
+    file: &str,
+    text: &str,
+    syntax: Syntax,
+) -> Result<T, Vec<Diagnostic>> {
+    let value = deserialize::<T>(file, text, syntax).map_err(|d| vec![d])?;
+    let schema = schemars::SchemaGenerator::default().into_root_schema_for::<T>();
+    let problems = scalars::check(file, text, schema.as_value());
+    if problems.is_empty() {
+        Ok(value)
+    } else {
+        Err(problems)
+    }
+}
+
+fn deserialize<T: DeserializeOwned>(
+    file: &str,
+    text: &str,
+    syntax: Syntax,
+) -> Result<T, Diagnostic> {
     if text.trim().is_empty() {
         return Err(Diagnostic::file(file, "the file is empty"));
     }
@@ -113,6 +138,10 @@ fn plain_message(message: &str, token: Option<&str>) -> String {
         return "the file holds more than one YAML document (a `---` line starts another); \
                 a manifest or policy is one document"
             .to_owned();
+    }
+    if message.starts_with("invalid boolean") {
+        // serde-saphyr's "(strict mode expects true/false)" names its own option.
+        return "invalid boolean: expected true or false".to_owned();
     }
     if message.starts_with("cannot deserialize null into") {
         return "expected a value, found nothing (null)".to_owned();
