@@ -48,6 +48,9 @@ pub struct Recomputed {
     pub rows: u64,
     /// Correct rows, for accuracy.
     pub correct: Option<u64>,
+    /// For ROC AUC, the model's DeLong pieces on all its rows, in file order, so that the
+    /// paired test with a baseline on the same rows ([`compare`]) does not compute them again.
+    pub auc_pieces: Option<stats::AucPieces>,
 }
 
 /// Bootstrap work per interval is capped at this many draws (cells of the resampled table, or
@@ -171,6 +174,7 @@ fn recompute_unclipped(
                 method: Method::Proportion { method: s.method },
                 rows,
                 correct: Some(correct),
+                auc_pieces: None,
             })
         }
         Metric::BalancedAccuracy | Metric::F1 => {
@@ -206,11 +210,13 @@ fn recompute_unclipped(
                 },
                 rows,
                 correct: None,
+                auc_pieces: None,
             })
         }
         Metric::RocAuc => {
             let (scores, labels) = binary_scores(set)?;
-            let auc = stats::roc_auc_delong(scores, &labels, s.confidence).map_err(err)?;
+            let (auc, pieces) =
+                stats::roc_auc_delong_with_pieces(scores, &labels, s.confidence).map_err(err)?;
             Ok(Recomputed {
                 value: auc.auc,
                 interval: auc.interval,
@@ -221,6 +227,7 @@ fn recompute_unclipped(
                 },
                 rows,
                 correct: None,
+                auc_pieces: Some(pieces),
             })
         }
         Metric::LogLoss => {
@@ -240,6 +247,7 @@ fn recompute_unclipped(
                 method: Method::RowMean,
                 rows,
                 correct: None,
+                auc_pieces: None,
             })
         }
         Metric::Rmse | Metric::Mae | Metric::R2 => {
@@ -298,6 +306,7 @@ fn recompute_unclipped(
                 method,
                 rows,
                 correct: None,
+                auc_pieces: None,
             })
         }
     }
@@ -333,13 +342,16 @@ pub struct Comparison {
     pub discordant: Option<(u64, u64)>,
 }
 
-/// Compares the model with its baseline on their shared rows.
+/// Compares the model with its baseline on their shared rows. `model_pieces` are the model's
+/// DeLong pieces on all its rows ([`Recomputed::auc_pieces`]), used for ROC AUC when every model
+/// row is paired (a component depends on every other row, so a subset is computed afresh).
 pub fn compare(
     model: &PredictionSet,
     baseline: &PredictionSet,
     metric: Metric,
     f1: F1Mode,
     settings: Settings,
+    model_pieces: Option<&stats::AucPieces>,
 ) -> Result<Comparison, String> {
     let confidence = settings.confidence;
     let err = |e: stats::StatsError| e.to_string();
@@ -434,13 +446,26 @@ pub fn compare(
                         .iter()
                         .map(|&(i, _)| aa[i as usize] == positive)
                         .collect();
-                    let xa: Vec<f64> = pairs.iter().map(|&(i, _)| sa[i as usize]).collect();
                     let xb: Vec<f64> = pairs.iter().map(|&(_, j)| sb[j as usize]).collect();
-                    let paired = stats::roc_auc_delong_paired(&xa, &xb, &labels, confidence)
-                        .map_err(|e| format!("DeLong's paired test: {e}"))?;
+                    let every_row = pairs.len() == model.rows();
+                    let paired = match model_pieces.filter(|p| every_row && p.rows() == sa.len()) {
+                        Some(pieces) => {
+                            let a = pieces.reordered(pairs.iter().map(|&(i, _)| i as usize));
+                            stats::roc_auc_delong_paired_with(&a, &xb, &labels, confidence)
+                        }
+                        None => {
+                            let xa: Vec<f64> = pairs.iter().map(|&(i, _)| sa[i as usize]).collect();
+                            stats::roc_auc_delong_paired(&xa, &xb, &labels, confidence)
+                        }
+                    }
+                    .map_err(|e| format!("DeLong's paired test: {e}"))?;
                     comparison.improvement = paired.difference;
                     comparison.interval = paired.interval;
-                    let differing = xa.iter().zip(&xb).filter(|(a, b)| a != b).count();
+                    let differing = pairs
+                        .iter()
+                        .zip(&xb)
+                        .filter(|&(&(i, _), b)| sa[i as usize] != *b)
+                        .count();
                     comparison.set_p(paired.p_value, None, differing as u64)?;
                     comparison.test = "DeLong, paired".into();
                 }
