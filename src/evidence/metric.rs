@@ -682,8 +682,68 @@ impl Comparison {
 }
 
 #[cfg(test)]
+#[allow(clippy::unwrap_used)]
 mod tests {
+    use proptest::prelude::*;
+
     use super::*;
+    use crate::evidence::IdArena;
+
+    /// A binary predictions set with scores; rows named `r<index of rows[k]>` in `rows` order.
+    fn binary_set(rows: &[usize], positive: &[bool], score: &[f64]) -> PredictionSet {
+        let mut ids = IdArena::default();
+        for &r in rows {
+            ids.push(format!("r{r:04}").as_bytes()).unwrap();
+        }
+        let order = ids.sorted().order();
+        PredictionSet {
+            file: "p.csv".into(),
+            ids,
+            columns: Columns::Classification {
+                classes: vec!["no".into(), "yes".into()],
+                actual: rows.iter().map(|&r| u32::from(positive[r])).collect(),
+                predicted: None,
+                score: Some(rows.iter().map(|&r| score[r]).collect()),
+                prob_true: None,
+            },
+            positive: Some(1),
+            fingerprint: String::new(),
+            order,
+        }
+    }
+
+    proptest! {
+        /// The paired DeLong test with the model's pieces from the recomputation equals the one
+        /// that ranks the model's scores again, whatever order the two files list their rows.
+        #[test]
+        fn shared_model_pieces_change_no_comparison(
+            rows in (4usize..200).prop_flat_map(|n| (
+                prop::collection::vec(any::<bool>(), n),
+                prop::collection::vec(prop_oneof![Just(0.5), 0.0f64..1.0], n),
+                prop::collection::vec(prop_oneof![Just(0.5), 0.0f64..1.0], n),
+                Just((0..n).collect::<Vec<usize>>()).prop_shuffle(),
+            )),
+        ) {
+            let (mut positive, model_score, base_score, shuffled) = rows;
+            positive[..4].copy_from_slice(&[true, true, false, false]);
+            let n = positive.len();
+            let model = binary_set(&shuffled, &positive, &model_score);
+            let baseline = binary_set(&(0..n).collect::<Vec<_>>(), &positive, &base_score);
+            let settings = Settings {
+                confidence: 0.95,
+                method: ProportionMethod::Wilson,
+                resamples: 100,
+                seed: 1,
+            };
+            let r = recompute(&model, Metric::RocAuc, F1Mode::Binary, settings).unwrap();
+            let pieces = r.auc_pieces.as_ref();
+            prop_assert!(pieces.is_some());
+            let args = (&model, &baseline, Metric::RocAuc, F1Mode::Binary, settings);
+            let fresh = compare(args.0, args.1, args.2, args.3, args.4, None).unwrap();
+            let shared = compare(args.0, args.1, args.2, args.3, args.4, pieces).unwrap();
+            prop_assert_eq!(format!("{fresh:?}"), format!("{shared:?}"));
+        }
+    }
 
     #[test]
     fn bootstrap_work_is_bounded_whatever_the_rows_or_classes() {
