@@ -48,6 +48,9 @@ pub struct Recomputed {
     pub rows: u64,
     /// Correct rows, for accuracy.
     pub correct: Option<u64>,
+    /// For ROC AUC, the model's DeLong pieces on all its rows, in file order, so that the
+    /// paired test with a baseline on the same rows ([`compare`]) does not compute them again.
+    pub auc_pieces: Option<stats::AucPieces>,
 }
 
 /// Bootstrap work per interval is capped at this many draws (cells of the resampled table, or
@@ -171,6 +174,7 @@ fn recompute_unclipped(
                 method: Method::Proportion { method: s.method },
                 rows,
                 correct: Some(correct),
+                auc_pieces: None,
             })
         }
         Metric::BalancedAccuracy | Metric::F1 => {
@@ -206,11 +210,13 @@ fn recompute_unclipped(
                 },
                 rows,
                 correct: None,
+                auc_pieces: None,
             })
         }
         Metric::RocAuc => {
             let (scores, labels) = binary_scores(set)?;
-            let auc = stats::roc_auc_delong(scores, &labels, s.confidence).map_err(err)?;
+            let (auc, pieces) =
+                stats::roc_auc_delong_with_pieces(scores, &labels, s.confidence).map_err(err)?;
             Ok(Recomputed {
                 value: auc.auc,
                 interval: auc.interval,
@@ -221,6 +227,7 @@ fn recompute_unclipped(
                 },
                 rows,
                 correct: None,
+                auc_pieces: Some(pieces),
             })
         }
         Metric::LogLoss => {
@@ -240,6 +247,7 @@ fn recompute_unclipped(
                 method: Method::RowMean,
                 rows,
                 correct: None,
+                auc_pieces: None,
             })
         }
         Metric::Rmse | Metric::Mae | Metric::R2 => {
@@ -298,6 +306,7 @@ fn recompute_unclipped(
                 method,
                 rows,
                 correct: None,
+                auc_pieces: None,
             })
         }
     }
@@ -333,13 +342,16 @@ pub struct Comparison {
     pub discordant: Option<(u64, u64)>,
 }
 
-/// Compares the model with its baseline on their shared rows.
+/// Compares the model with its baseline on their shared rows. `model_pieces` are the model's
+/// DeLong pieces on all its rows ([`Recomputed::auc_pieces`]), used for ROC AUC when every model
+/// row is paired (a component depends on every other row, so a subset is computed afresh).
 pub fn compare(
     model: &PredictionSet,
     baseline: &PredictionSet,
     metric: Metric,
     f1: F1Mode,
     settings: Settings,
+    model_pieces: Option<&stats::AucPieces>,
 ) -> Result<Comparison, String> {
     let confidence = settings.confidence;
     let err = |e: stats::StatsError| e.to_string();
@@ -434,13 +446,26 @@ pub fn compare(
                         .iter()
                         .map(|&(i, _)| aa[i as usize] == positive)
                         .collect();
-                    let xa: Vec<f64> = pairs.iter().map(|&(i, _)| sa[i as usize]).collect();
                     let xb: Vec<f64> = pairs.iter().map(|&(_, j)| sb[j as usize]).collect();
-                    let paired = stats::roc_auc_delong_paired(&xa, &xb, &labels, confidence)
-                        .map_err(|e| format!("DeLong's paired test: {e}"))?;
+                    let every_row = pairs.len() == model.rows();
+                    let paired = match model_pieces.filter(|p| every_row && p.rows() == sa.len()) {
+                        Some(pieces) => {
+                            let a = pieces.reordered(pairs.iter().map(|&(i, _)| i as usize));
+                            stats::roc_auc_delong_paired_with(&a, &xb, &labels, confidence)
+                        }
+                        None => {
+                            let xa: Vec<f64> = pairs.iter().map(|&(i, _)| sa[i as usize]).collect();
+                            stats::roc_auc_delong_paired(&xa, &xb, &labels, confidence)
+                        }
+                    }
+                    .map_err(|e| format!("DeLong's paired test: {e}"))?;
                     comparison.improvement = paired.difference;
                     comparison.interval = paired.interval;
-                    let differing = xa.iter().zip(&xb).filter(|(a, b)| a != b).count();
+                    let differing = pairs
+                        .iter()
+                        .zip(&xb)
+                        .filter(|&(&(i, _), b)| sa[i as usize] != *b)
+                        .count();
                     comparison.set_p(paired.p_value, None, differing as u64)?;
                     comparison.test = "DeLong, paired".into();
                 }
@@ -657,8 +682,68 @@ impl Comparison {
 }
 
 #[cfg(test)]
+#[allow(clippy::unwrap_used)]
 mod tests {
+    use proptest::prelude::*;
+
     use super::*;
+    use crate::evidence::IdArena;
+
+    /// A binary predictions set with scores; rows named `r<index of rows[k]>` in `rows` order.
+    fn binary_set(rows: &[usize], positive: &[bool], score: &[f64]) -> PredictionSet {
+        let mut ids = IdArena::default();
+        for &r in rows {
+            ids.push(format!("r{r:04}").as_bytes()).unwrap();
+        }
+        let order = ids.sorted().order();
+        PredictionSet {
+            file: "p.csv".into(),
+            ids,
+            columns: Columns::Classification {
+                classes: vec!["no".into(), "yes".into()],
+                actual: rows.iter().map(|&r| u32::from(positive[r])).collect(),
+                predicted: None,
+                score: Some(rows.iter().map(|&r| score[r]).collect()),
+                prob_true: None,
+            },
+            positive: Some(1),
+            fingerprint: String::new(),
+            order,
+        }
+    }
+
+    proptest! {
+        /// The paired DeLong test with the model's pieces from the recomputation equals the one
+        /// that ranks the model's scores again, whatever order the two files list their rows.
+        #[test]
+        fn shared_model_pieces_change_no_comparison(
+            rows in (4usize..200).prop_flat_map(|n| (
+                prop::collection::vec(any::<bool>(), n),
+                prop::collection::vec(prop_oneof![Just(0.5), 0.0f64..1.0], n),
+                prop::collection::vec(prop_oneof![Just(0.5), 0.0f64..1.0], n),
+                Just((0..n).collect::<Vec<usize>>()).prop_shuffle(),
+            )),
+        ) {
+            let (mut positive, model_score, base_score, shuffled) = rows;
+            positive[..4].copy_from_slice(&[true, true, false, false]);
+            let n = positive.len();
+            let model = binary_set(&shuffled, &positive, &model_score);
+            let baseline = binary_set(&(0..n).collect::<Vec<_>>(), &positive, &base_score);
+            let settings = Settings {
+                confidence: 0.95,
+                method: ProportionMethod::Wilson,
+                resamples: 100,
+                seed: 1,
+            };
+            let r = recompute(&model, Metric::RocAuc, F1Mode::Binary, settings).unwrap();
+            let pieces = r.auc_pieces.as_ref();
+            prop_assert!(pieces.is_some());
+            let args = (&model, &baseline, Metric::RocAuc, F1Mode::Binary, settings);
+            let fresh = compare(args.0, args.1, args.2, args.3, args.4, None).unwrap();
+            let shared = compare(args.0, args.1, args.2, args.3, args.4, pieces).unwrap();
+            prop_assert_eq!(format!("{fresh:?}"), format!("{shared:?}"));
+        }
+    }
 
     #[test]
     fn bootstrap_work_is_bounded_whatever_the_rows_or_classes() {

@@ -80,7 +80,12 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
     let (Some(p), Some(set)) = (&model.predictions, &baseline.set) else {
         return folds_only(subject, ctx, baseline, min);
     };
-    let c = match compare(&p.set, set, model.metric, p.f1, ctx.intervals) {
+    // The model's DeLong pieces from the recomputation, so ROC AUC is not ranked twice.
+    let pieces = match &subject.recomputed {
+        Some(Ok(r)) => r.auc_pieces.as_ref(),
+        _ => None,
+    };
+    let c = match compare(&p.set, set, model.metric, p.f1, ctx.intervals, pieces) {
         Ok(c) => c,
         Err(why) => {
             return Outcome::inconclusive(format!(

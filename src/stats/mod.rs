@@ -55,7 +55,8 @@ pub use bootstrap::{
     bootstrap_paired_confusion, bootstrap_rows,
 };
 pub use delong::{
-    AucEstimate, PairedAuc, auc_score_interval, roc_auc_delong, roc_auc_delong_paired,
+    AucEstimate, AucPieces, PairedAuc, auc_score_interval, roc_auc_delong, roc_auc_delong_paired,
+    roc_auc_delong_paired_with, roc_auc_delong_with_pieces,
 };
 pub use effective_configurations::{
     EffectiveConfigurations, MAX_EIGEN_DIMENSION, effective_configurations,
