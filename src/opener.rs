@@ -287,6 +287,14 @@ fn special_file(_: &std::fs::FileType) -> &'static str {
     "not a regular file"
 }
 
+impl Bounded<File> {
+    /// The file's length now, when the system tells it (a hint for sizing what is read from it;
+    /// the limits are enforced as it is read).
+    pub fn source_len(&self) -> Option<u64> {
+        self.inner.metadata().ok().map(|m| m.len())
+    }
+}
+
 /// Standard input as an input of `kind`, bounded like a file of that kind.
 pub fn stdin(kind: Kind) -> Bounded<std::io::Stdin> {
     Bounded::new(std::io::stdin(), kind)

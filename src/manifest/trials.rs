@@ -130,6 +130,9 @@ pub struct TrialReader<'a> {
     scorer: Option<super::sklearn::ScorerName>,
     /// Whether the trials came from scikit-learn's results (where `scorer` applies).
     cv_results: bool,
+    /// The size of the source in bytes, when known: the id table is sized from it and the first
+    /// record, so that it is not rebuilt again and again as it grows.
+    source_bytes: Option<u64>,
 }
 
 impl<'a> TrialReader<'a> {
@@ -152,6 +155,7 @@ impl<'a> TrialReader<'a> {
             ranked_ones: 0,
             scorer: None,
             cv_results: false,
+            source_bytes: None,
         }
     }
 
@@ -394,6 +398,25 @@ impl<'a> TrialReader<'a> {
         Ok(Some((bias, found.id, by)))
     }
 
+    /// Tells the reader how many bytes its source holds (a hint for sizing, never a limit).
+    pub fn source_bytes(mut self, bytes: Option<u64>) -> Self {
+        self.source_bytes = bytes;
+        self
+    }
+
+    /// Sizes the id table for the records a source of [`TrialReader::source_bytes`] holds if
+    /// every record is as long as `record` (the first). A record takes at least one byte per
+    /// field (its comma or line break), so this is never more than the most records a file of
+    /// that size could hold.
+    fn expect_records_like(&mut self, record: &csv::StringRecord) {
+        let Some(bytes) = self.source_bytes.take() else {
+            return;
+        };
+        let per_record = (record.as_byte_record().as_slice().len() + record.len()).max(1);
+        let records = usize::try_from(bytes / per_record as u64).unwrap_or(usize::MAX);
+        self.ids.reserve(records);
+    }
+
     /// Reads a CSV trials file with an `id` column and `fold_1` … `fold_K` columns.
     pub fn read_csv(&mut self, reader: impl std::io::Read) {
         let mut csv = csv::ReaderBuilder::new()
@@ -457,6 +480,7 @@ impl<'a> TrialReader<'a> {
             if !self.next_record(&mut csv, &mut record) {
                 return;
             }
+            self.expect_records_like(&record);
             let line = record.position().map(|p| p.line()).unwrap_or(0);
             let place = Place {
                 line: Some(line),
@@ -783,7 +807,8 @@ pub fn read_file(
     let file = crate::opener::open(path, kind).map_err(refuse)?;
     let mut reader = TrialReader::new(&shown, metric, folds)
         .select(selected)
-        .scorer(scorer);
+        .scorer(scorer)
+        .source_bytes(file.source_len());
     let buffered = std::io::BufReader::with_capacity(1 << 16, file);
     match kind {
         Kind::TrialsResultsJson => reader.read_cv_results_json(buffered),
@@ -861,6 +886,18 @@ impl<S: Default> Default for TrialIds<S> {
 }
 
 impl<S: BuildHasher> TrialIds<S> {
+    /// Makes room for `more` ids without growing the table.
+    fn reserve(&mut self, more: usize) {
+        let TrialIds {
+            bytes,
+            ends,
+            table,
+            hasher,
+        } = self;
+        table.reserve(more, |&i| hasher.hash_one(stored(bytes, ends, i)));
+        ends.reserve(more);
+    }
+
     /// Adds `id`: `Some(true)` when it is new, `Some(false)` when it was seen before, `None` when
     /// the ids would pass 4 GiB in all (more than any trials source within its size limit holds).
     fn insert(&mut self, id: &[u8]) -> Option<bool> {
@@ -870,15 +907,10 @@ impl<S: BuildHasher> TrialIds<S> {
             table,
             hasher,
         } = self;
-        let stored = |i: u32| {
-            let i = i as usize;
-            let start = i.checked_sub(1).map_or(0, |before| ends[before] as usize);
-            &bytes[start..ends[i] as usize]
-        };
         let entry = table.entry(
             hasher.hash_one(id),
-            |&i| stored(i) == id,
-            |&i| hasher.hash_one(stored(i)),
+            |&i| stored(bytes, ends, i) == id,
+            |&i| hasher.hash_one(stored(bytes, ends, i)),
         );
         let hashbrown::hash_table::Entry::Vacant(vacant) = entry else {
             return Some(false);
@@ -890,6 +922,13 @@ impl<S: BuildHasher> TrialIds<S> {
         vacant.insert(index);
         Some(true)
     }
+}
+
+/// The id at `index` in [`TrialIds`]' buffer.
+fn stored<'a>(bytes: &'a [u8], ends: &[u32], index: u32) -> &'a [u8] {
+    let i = index as usize;
+    let start = i.checked_sub(1).map_or(0, |before| ends[before] as usize);
+    &bytes[start..ends[i] as usize]
 }
 
 #[cfg(test)]
@@ -929,8 +968,10 @@ mod tests {
 
     proptest! {
         #[test]
-        fn trial_ids_find_exactly_the_duplicates(ids in ids()) {
+        fn trial_ids_find_exactly_the_duplicates(ids in ids(), room in 0usize..300) {
             let mut set = TrialIds::<foldhash::fast::RandomState>::default();
+            // Sized ahead (as from a file's size) or not, the answers are the same.
+            set.reserve(room);
             let found: Vec<bool> = ids.iter().map(|id| set.insert(id).unwrap_or(false)).collect();
             prop_assert_eq!(found, oracle(&ids));
         }
