@@ -888,14 +888,11 @@ impl<S: Default> Default for TrialIds<S> {
 impl<S: BuildHasher> TrialIds<S> {
     /// Makes room for `more` ids without growing the table.
     fn reserve(&mut self, more: usize) {
-        let TrialIds {
-            bytes,
-            ends,
-            table,
-            hasher,
-        } = self;
-        table.reserve(more, |&i| hasher.hash_one(stored(bytes, ends, i)));
-        ends.reserve(more);
+        // Closures capture the fields they use, so the table can grow while they read the ids.
+        self.table.reserve(more, |&i| {
+            self.hasher.hash_one(stored(&self.bytes, &self.ends, i))
+        });
+        self.ends.reserve(more);
     }
 
     /// Adds `id`: `Some(true)` when it is new, `Some(false)` when it was seen before, `None` when
