@@ -1,5 +1,6 @@
 """The Python a user would otherwise write for the selection-optimism numbers of one search:
-read every trial's fold scores with pandas, pick the best configuration, compute the
+read every trial's fold scores with pandas, check the ids are unique and every fold score is
+finite and within [0, 1] (accuracy), pick the best configuration, compute the
 Tibshirani & Tibshirani (2009) bias, the expected maximum of N normals by numerical integration
 and the best-of-N binomial tail with scipy. Used by scripts/bench_trials.sh to compare answers
 and time. Prints one JSON object.
@@ -17,7 +18,11 @@ from scipy import integrate, stats
 
 path, folds, rows, test_score = sys.argv[1], int(sys.argv[2]), int(sys.argv[3]), float(sys.argv[4])
 df = pd.read_csv(path)
-scores = df[[f"fold_{k}" for k in range(1, folds + 1)]].to_numpy()
+scores = df[[f"fold_{k}" for k in range(1, folds + 1)]].to_numpy(dtype=float)
+if df["id"].duplicated().any():
+    sys.exit(f"duplicate trial ids: {df['id'][df['id'].duplicated()].tolist()[:5]}")
+if not (np.isfinite(scores).all() and (scores >= 0).all() and (scores <= 1).all()):
+    sys.exit("fold scores must be finite and within [0, 1]")
 means = scores.mean(axis=1)
 best = int(np.argmax(means))
 bias = float((scores.max(axis=0) - scores[best]).mean())

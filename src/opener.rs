@@ -287,6 +287,14 @@ fn special_file(_: &std::fs::FileType) -> &'static str {
     "not a regular file"
 }
 
+impl Bounded<File> {
+    /// The file's length now, when the system tells it (a hint for sizing what is read from it;
+    /// the limits are enforced as it is read).
+    pub fn source_len(&self) -> Option<u64> {
+        self.inner.metadata().ok().map(|m| m.len())
+    }
+}
+
 /// Standard input as an input of `kind`, bounded like a file of that kind.
 pub fn stdin(kind: Kind) -> Bounded<std::io::Stdin> {
     Bounded::new(std::io::stdin(), kind)
@@ -396,6 +404,8 @@ pub struct Bounded<R> {
     /// Line the reader is on (1-based).
     line: u64,
     csv: CsvState,
+    /// Longest record, in bytes: [`MAX_RECORD_BYTES`] (a field so that tests can make it small).
+    max_record: usize,
 }
 
 impl<R> Bounded<R> {
@@ -408,6 +418,7 @@ impl<R> Bounded<R> {
             record_line: 1,
             line: 1,
             csv: CsvState::FieldStart,
+            max_record: MAX_RECORD_BYTES,
         }
     }
 
@@ -424,56 +435,105 @@ impl<R> Bounded<R> {
     }
 
     /// Advances the framing over `bytes`; an error once a record passes the limit.
+    ///
+    /// It jumps (memchr) from one byte that matters to the next: in a line format the line break;
+    /// in CSV outside quotes a quote or a line break (a comma only changes the state, which the
+    /// byte before the next stop tells), inside quotes the next quote. Those bytes go through
+    /// [`Bounded::step`] one at a time; the runs between them only add to the record's length
+    /// (and, inside quotes, to the line count). A run that would pass the limit is stepped byte by
+    /// byte, so the limit is reported at the byte that passes it, as a byte-by-byte scan would.
     fn scan(&mut self, bytes: &[u8]) -> std::io::Result<()> {
         let framing = self.kind.framing();
-        if matches!(framing, Framing::Whole | Framing::Binary) {
-            return Ok(());
-        }
-        for &b in bytes {
-            let ends_record = match framing {
-                Framing::Lines => b == b'\n',
-                Framing::Csv => {
-                    let (next, ends) = match (self.csv, b) {
-                        (CsvState::Quoted, b'"') => (CsvState::QuoteInQuoted, false),
-                        (CsvState::Quoted, _) => (CsvState::Quoted, false),
-                        (CsvState::FieldStart, b'"') | (CsvState::QuoteInQuoted, b'"') => {
-                            (CsvState::Quoted, false)
-                        }
-                        (_, b',') => (CsvState::FieldStart, false),
-                        (_, b'\n' | b'\r') => (CsvState::FieldStart, true),
-                        _ => (CsvState::Unquoted, false),
-                    };
-                    self.csv = next;
-                    ends
+        let mut rest = bytes;
+        while !rest.is_empty() {
+            let stop = match (framing, self.csv) {
+                (Framing::Whole | Framing::Binary, _) => return Ok(()),
+                (Framing::Lines, _) => memchr::memchr(b'\n', rest),
+                (Framing::Csv, CsvState::Quoted) => memchr::memchr(b'"', rest),
+                (Framing::Csv, CsvState::FieldStart | CsvState::Unquoted) => {
+                    memchr::memchr3(b'"', b'\n', b'\r', rest)
                 }
-                Framing::Whole | Framing::Binary => false,
+                (Framing::Csv, CsvState::QuoteInQuoted) => Some(0),
             };
-            if b == b'\n' {
-                self.line += 1;
-            }
-            if ends_record {
-                self.record = 0;
-                self.record_line = self.line;
-            } else {
-                self.record += 1;
-                if self.record > MAX_RECORD_BYTES {
-                    let message = if self.line > self.record_line {
-                        format!(
-                            "the record starting on line {} is longer than {MAX_RECORD_BYTES} \
-                             bytes (a quoted field runs on over line breaks)",
-                            self.record_line
-                        )
-                    } else {
-                        format!(
-                            "line {} is longer than {MAX_RECORD_BYTES} bytes",
-                            self.record_line
-                        )
-                    };
-                    return Err(self.limit(self.record_line, message));
-                }
-            }
+            let (run, after) = rest.split_at(stop.unwrap_or(rest.len()));
+            self.skip(framing, run)?;
+            let Some((&b, after)) = after.split_first() else {
+                break;
+            };
+            self.step(framing, b)?;
+            rest = after;
         }
         Ok(())
+    }
+
+    /// Advances over a run of bytes that holds none of the bytes [`Bounded::scan`] stops at.
+    fn skip(&mut self, framing: Framing, run: &[u8]) -> std::io::Result<()> {
+        let Some(&last) = run.last() else {
+            return Ok(());
+        };
+        if self.record + run.len() > self.max_record {
+            return run.iter().try_for_each(|&b| self.step(framing, b));
+        }
+        self.record += run.len();
+        match (framing, self.csv) {
+            (Framing::Csv, CsvState::Quoted) => {
+                self.line += memchr::memchr_iter(b'\n', run).count() as u64;
+            }
+            (Framing::Csv, _) => {
+                self.csv = if last == b',' {
+                    CsvState::FieldStart
+                } else {
+                    CsvState::Unquoted
+                };
+            }
+            _ => {}
+        }
+        Ok(())
+    }
+
+    /// Advances the framing over one byte; an error once the record passes the limit.
+    fn step(&mut self, framing: Framing, b: u8) -> std::io::Result<()> {
+        let ends_record = match framing {
+            Framing::Lines => b == b'\n',
+            Framing::Csv => {
+                let (next, ends) = match (self.csv, b) {
+                    (CsvState::Quoted, b'"') => (CsvState::QuoteInQuoted, false),
+                    (CsvState::Quoted, _) => (CsvState::Quoted, false),
+                    (CsvState::FieldStart, b'"') | (CsvState::QuoteInQuoted, b'"') => {
+                        (CsvState::Quoted, false)
+                    }
+                    (_, b',') => (CsvState::FieldStart, false),
+                    (_, b'\n' | b'\r') => (CsvState::FieldStart, true),
+                    _ => (CsvState::Unquoted, false),
+                };
+                self.csv = next;
+                ends
+            }
+            Framing::Whole | Framing::Binary => false,
+        };
+        if b == b'\n' {
+            self.line += 1;
+        }
+        if ends_record {
+            self.record = 0;
+            self.record_line = self.line;
+            return Ok(());
+        }
+        self.record += 1;
+        if self.record <= self.max_record {
+            return Ok(());
+        }
+        let max = self.max_record;
+        let message = if self.line > self.record_line {
+            format!(
+                "the record starting on line {} is longer than {max} bytes (a quoted field runs \
+                 on over line breaks)",
+                self.record_line
+            )
+        } else {
+            format!("line {} is longer than {max} bytes", self.record_line)
+        };
+        Err(self.limit(self.record_line, message))
     }
 }
 
@@ -507,6 +567,103 @@ mod tests {
         let mut out = Vec::new();
         Bounded::new(bytes, kind).read_to_end(&mut out)?;
         Ok(out)
+    }
+
+    /// The scanner as it was before it jumped with memchr (byte by byte), kept as the oracle;
+    /// the only change is that it reads the limit from `max_record`.
+    fn byte_by_byte<R>(me: &mut Bounded<R>, bytes: &[u8]) -> std::io::Result<()> {
+        let max = me.max_record;
+        let framing = me.kind.framing();
+        if matches!(framing, Framing::Whole | Framing::Binary) {
+            return Ok(());
+        }
+        for &b in bytes {
+            let ends_record = match framing {
+                Framing::Lines => b == b'\n',
+                Framing::Csv => {
+                    let (next, ends) = match (me.csv, b) {
+                        (CsvState::Quoted, b'"') => (CsvState::QuoteInQuoted, false),
+                        (CsvState::Quoted, _) => (CsvState::Quoted, false),
+                        (CsvState::FieldStart, b'"') | (CsvState::QuoteInQuoted, b'"') => {
+                            (CsvState::Quoted, false)
+                        }
+                        (_, b',') => (CsvState::FieldStart, false),
+                        (_, b'\n' | b'\r') => (CsvState::FieldStart, true),
+                        _ => (CsvState::Unquoted, false),
+                    };
+                    me.csv = next;
+                    ends
+                }
+                Framing::Whole | Framing::Binary => false,
+            };
+            if b == b'\n' {
+                me.line += 1;
+            }
+            if ends_record {
+                me.record = 0;
+                me.record_line = me.line;
+            } else {
+                me.record += 1;
+                if me.record > max {
+                    let message = if me.line > me.record_line {
+                        format!(
+                            "the record starting on line {} is longer than {max} \
+                             bytes (a quoted field runs on over line breaks)",
+                            me.record_line
+                        )
+                    } else {
+                        format!("line {} is longer than {max} bytes", me.record_line)
+                    };
+                    return Err(me.limit(me.record_line, message));
+                }
+            }
+        }
+        Ok(())
+    }
+
+    /// What a reader's framing state is after a chunk, and how the chunk ended.
+    fn outcome<R>(me: &Bounded<R>, result: std::io::Result<()>) -> String {
+        let state = (me.record, me.record_line, me.line, me.csv);
+        match result {
+            Ok(()) => format!("ok {state:?}"),
+            Err(e) => format!(
+                "error at {:?}: {} {state:?}",
+                limit_line(&e),
+                read_reason(&e)
+            ),
+        }
+    }
+
+    proptest::proptest! {
+        #[test]
+        fn memchr_scan_agrees_with_the_byte_by_byte_scan(
+            bytes in proptest::collection::vec(
+                proptest::sample::select(b"ab,\"\n\r".to_vec()),
+                0..400,
+            ),
+            cuts in proptest::collection::vec(0usize..400, 0..6),
+            max_record in 1usize..24,
+            csv in proptest::bool::ANY,
+        ) {
+            let kind = if csv { Kind::TrialsCsv } else { Kind::Ids };
+            let mut fast = Bounded { max_record, ..Bounded::new((), kind) };
+            let mut slow = Bounded { max_record, ..Bounded::new((), kind) };
+            // The same bytes in the chunks a reader might hand over.
+            let mut cuts: Vec<usize> = cuts.into_iter().map(|c| c.min(bytes.len())).collect();
+            cuts.push(0);
+            cuts.push(bytes.len());
+            cuts.sort_unstable();
+            for chunk in cuts.windows(2).map(|w| &bytes[w[0]..w[1]]) {
+                let expected = byte_by_byte(&mut slow, chunk);
+                let failed = expected.is_err();
+                let expected = outcome(&slow, expected);
+                let found = fast.scan(chunk);
+                proptest::prop_assert_eq!(outcome(&fast, found), expected);
+                if failed {
+                    break;
+                }
+            }
+        }
     }
 
     #[test]

@@ -4,18 +4,19 @@
 //! (`search.trials_file`): CSV with a header holding an `id` column and one column per fold named
 //! `fold_1` … `fold_K` (any other column is a hyperparameter and is not read), or JSON Lines with
 //! one object per line, `{"id": …, "params": {…}, "fold_scores": [ … ]}`. Each trial feeds the
-//! Tibshirani & Tibshirani accumulator and a histogram of mean scores, so memory grows with the
-//! number of folds, not the number of trials (only an 8-byte hash per trial id is kept, to catch
-//! duplicates). scikit-learn's `cv_results_` as pandas writes it is read too ([`super::sklearn`]);
-//! its JSON form is parsed whole, so it has a smaller size limit.
+//! Tibshirani & Tibshirani accumulator and a histogram of mean scores, whose sizes depend on the
+//! number of folds only; the one thing kept per trial is its id ([`TrialIds`]: the id's bytes and
+//! 9 to 15 bytes of index), so that a duplicate is caught exactly. scikit-learn's `cv_results_` as
+//! pandas writes it is read too ([`super::sklearn`]); its JSON form is parsed whole, so it has a
+//! smaller size limit.
 //!
 //! The bias is computed for the configuration the manifest reports, never for whichever trial
 //! has the best mean: the manifest may name it (`search.selected_trial`), and its fold scores
 //! must then equal the manifest's folds; unnamed, it is the first trial whose fold scores equal
 //! them (within [`SCORE_MATCH`]), and a search where none does is an input error.
 
-use std::collections::{BTreeMap, HashSet};
-use std::hash::{DefaultHasher, Hash, Hasher};
+use std::collections::BTreeMap;
+use std::hash::BuildHasher;
 use std::io::BufRead;
 use std::path::Path;
 
@@ -112,7 +113,9 @@ pub struct TrialReader<'a> {
     folds: usize,
     bias: SelectionBias,
     histogram: Histogram,
-    ids: HashSet<u64>,
+    ids: TrialIds,
+    /// The scores of the trial being pushed, signed for the accumulator (reused, not reallocated).
+    signed: Vec<f64>,
     problems: Vec<Diagnostic>,
     selected: Option<Selected>,
     /// The trial the file itself marks as chosen (scikit-learn's first `rank_test_score == 1`).
@@ -127,6 +130,9 @@ pub struct TrialReader<'a> {
     scorer: Option<super::sklearn::ScorerName>,
     /// Whether the trials came from scikit-learn's results (where `scorer` applies).
     cv_results: bool,
+    /// The size of the source in bytes, when known: the id table is sized from it and the first
+    /// record, so that it is not rebuilt again and again as it grows.
+    source_bytes: Option<u64>,
 }
 
 impl<'a> TrialReader<'a> {
@@ -138,7 +144,8 @@ impl<'a> TrialReader<'a> {
             folds,
             bias: SelectionBias::new(folds),
             histogram: Histogram::default(),
-            ids: HashSet::new(),
+            ids: TrialIds::default(),
+            signed: Vec::with_capacity(folds),
             problems: Vec::new(),
             selected: None,
             ranked_first: None,
@@ -148,6 +155,7 @@ impl<'a> TrialReader<'a> {
             ranked_ones: 0,
             scorer: None,
             cv_results: false,
+            source_bytes: None,
         }
     }
 
@@ -179,11 +187,20 @@ impl<'a> TrialReader<'a> {
                 format!("{path}.{field}")
             }
         };
-        let mut hasher = DefaultHasher::new();
-        id.hash(&mut hasher);
-        if !self.ids.insert(hasher.finish()) {
-            self.problem(place, key("id"), format!("trial id {id:?} appears twice"));
-            return;
+        match self.ids.insert(id.as_bytes()) {
+            Some(true) => {}
+            Some(false) => {
+                self.problem(place, key("id"), format!("trial id {id:?} appears twice"));
+                return;
+            }
+            None => {
+                self.problem(
+                    place,
+                    key("id"),
+                    format!("the trial ids pass {} bytes in all", u32::MAX),
+                );
+                return;
+            }
         }
         if scores.len() != self.folds {
             self.problem(
@@ -219,41 +236,38 @@ impl<'a> TrialReader<'a> {
         } else {
             -1.0
         };
-        let signed: Vec<f64> = scores.iter().map(|s| sign * s).collect();
+        self.signed.clear();
+        self.signed.extend(scores.iter().map(|s| sign * s));
         let index = self.pushed;
-        if let Err(e) = self.bias.push(&signed) {
+        if let Err(e) = self.bias.push(&self.signed) {
             self.problem(place, key("fold_scores"), e.to_string());
             return;
         }
         self.pushed += 1;
-        self.consider(
-            Candidate {
+        if self.keeps(id, scores) {
+            self.candidate = Some(Candidate {
                 index,
                 id: id.to_owned(),
                 place,
                 key: key("fold_scores"),
-                scores: Vec::new(),
-            },
-            scores,
-        );
+                scores: scores.to_vec(),
+            });
+        }
         self.histogram
             .push(scores.iter().sum::<f64>() / scores.len() as f64);
     }
 
-    /// Keeps the trial if it is the named one, or (unnamed) the first whose folds match.
-    fn consider(&mut self, mut candidate: Candidate, scores: &[f64]) {
+    /// Whether the trial is to be kept as the candidate: the named one, or (unnamed) the first
+    /// whose folds match. Counts the trials whose folds match.
+    fn keeps(&mut self, id: &str, scores: &[f64]) -> bool {
         let Some(selected) = &self.selected else {
-            return;
+            return false;
         };
         let matches = same_scores(scores, &selected.folds);
         self.matching += u64::from(matches);
-        let keep = match &selected.named {
-            Some(named) => named.id == candidate.id,
+        match &selected.named {
+            Some(named) => named.id == id,
             None => matches && self.candidate.is_none(),
-        };
-        if keep {
-            candidate.scores = scores.to_vec();
-            self.candidate = Some(candidate);
         }
     }
 
@@ -384,6 +398,25 @@ impl<'a> TrialReader<'a> {
         Ok(Some((bias, found.id, by)))
     }
 
+    /// Tells the reader how many bytes its source holds (a hint for sizing, never a limit).
+    pub fn source_bytes(mut self, bytes: Option<u64>) -> Self {
+        self.source_bytes = bytes;
+        self
+    }
+
+    /// Sizes the id table for the records a source of [`TrialReader::source_bytes`] holds if
+    /// every record is as long as `record` (the first). A record takes at least one byte per
+    /// field (its comma or line break), so this is never more than the most records a file of
+    /// that size could hold.
+    fn expect_records_like(&mut self, record: &csv::StringRecord) {
+        let Some(bytes) = self.source_bytes.take() else {
+            return;
+        };
+        let per_record = (record.as_byte_record().as_slice().len() + record.len()).max(1);
+        let records = usize::try_from(bytes / per_record as u64).unwrap_or(usize::MAX);
+        self.ids.reserve(records);
+    }
+
     /// Reads a CSV trials file with an `id` column and `fold_1` … `fold_K` columns.
     pub fn read_csv(&mut self, reader: impl std::io::Read) {
         let mut csv = csv::ReaderBuilder::new()
@@ -447,6 +480,7 @@ impl<'a> TrialReader<'a> {
             if !self.next_record(&mut csv, &mut record) {
                 return;
             }
+            self.expect_records_like(&record);
             let line = record.position().map(|p| p.line()).unwrap_or(0);
             let place = Place {
                 line: Some(line),
@@ -455,10 +489,11 @@ impl<'a> TrialReader<'a> {
             scores.clear();
             let mut ok = true;
             for (k, &c) in fold_columns.iter().enumerate() {
-                let cell = record.get(c).unwrap_or("").trim();
-                match cell.parse::<f64>() {
-                    Ok(v) => scores.push(v),
-                    Err(_) => {
+                let cell = record.get(c).unwrap_or("");
+                match parse_score(cell) {
+                    Some(v) => scores.push(v),
+                    None => {
+                        let cell = cell.trim();
                         self.problem(
                             Place {
                                 line: Some(line),
@@ -473,8 +508,7 @@ impl<'a> TrialReader<'a> {
                 }
             }
             if ok {
-                let id = record.get(id_column).unwrap_or("").to_owned();
-                self.push(place, "", &id, &scores);
+                self.push(place, "", record.get(id_column).unwrap_or(""), &scores);
             }
         }
     }
@@ -773,7 +807,8 @@ pub fn read_file(
     let file = crate::opener::open(path, kind).map_err(refuse)?;
     let mut reader = TrialReader::new(&shown, metric, folds)
         .select(selected)
-        .scorer(scorer);
+        .scorer(scorer)
+        .source_bytes(file.source_len());
     let buffered = std::io::BufReader::with_capacity(1 << 16, file);
     match kind {
         Kind::TrialsResultsJson => reader.read_cv_results_json(buffered),
@@ -781,4 +816,202 @@ pub fn read_file(
         _ => reader.read_csv(buffered),
     }
     reader.finish()
+}
+
+/// A fold score read from a CSV cell: plain decimal digits through [`decimal`], anything else as
+/// before, trimmed and through `str::parse`. `None` when it is not a number.
+fn parse_score(cell: &str) -> Option<f64> {
+    decimal(cell.as_bytes()).or_else(|| cell.trim().parse::<f64>().ok())
+}
+
+/// The powers of ten that an f64 holds exactly (5^22 < 2^53, so 10^22 is the last).
+const EXACT_POWERS_OF_TEN: [f64; 23] = [
+    1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16,
+    1e17, 1e18, 1e19, 1e20, 1e21, 1e22,
+];
+
+/// A number written as plain decimal digits with an optional fraction (`0.8123`, `1`, `12.50`),
+/// parsed without the general parser. Its digits, read as one integer m, are at most 2^53 and the
+/// k digits after the point at most 22, so m and 10^k are both exact in an f64 and m / 10^k is
+/// one correctly rounded division: the correctly rounded value of the decimal, which is what
+/// `str::parse::<f64>` returns (the exact case of Clinger 1990, "How to read floating point
+/// numbers accurately"). `None` for anything else (a sign, an exponent, white space, `.5`, `5.`,
+/// more digits), which the caller hands to `str::parse`.
+fn decimal(text: &[u8]) -> Option<f64> {
+    let (whole, fraction) = match text.iter().position(|&b| b == b'.') {
+        Some(point) => (&text[..point], &text[point + 1..]),
+        None => (text, &text[text.len()..]),
+    };
+    let pointed = whole.len() < text.len();
+    if whole.is_empty() || (pointed && fraction.is_empty()) {
+        return None;
+    }
+    let power = EXACT_POWERS_OF_TEN.get(fraction.len())?;
+    let mut digits: u64 = 0;
+    for &b in whole.iter().chain(fraction) {
+        let digit = b.wrapping_sub(b'0');
+        if digit > 9 {
+            return None;
+        }
+        digits = digits.checked_mul(10)?.checked_add(u64::from(digit))?;
+    }
+    if digits > 1 << 53 {
+        return None;
+    }
+    Some(digits as f64 / power)
+}
+
+/// The trial ids seen so far, to refuse a duplicate exactly. Every id's bytes are kept once, end
+/// to end in one buffer, and a hash table holds each id's index, probed by a hash of the bytes
+/// (foldhash, seeded at random per process so that colliding ids cannot be planned; no result
+/// depends on the seed). Ids whose hashes meet are compared byte for byte, so a collision never
+/// passes for a duplicate, and equal ids always hash alike, so no duplicate is missed.
+struct TrialIds<S = foldhash::fast::RandomState> {
+    bytes: Vec<u8>,
+    /// Where each id ends in `bytes` (it starts where the one before ends).
+    ends: Vec<u32>,
+    table: hashbrown::HashTable<u32>,
+    hasher: S,
+}
+
+impl<S: Default> Default for TrialIds<S> {
+    fn default() -> Self {
+        TrialIds {
+            bytes: Vec::new(),
+            ends: Vec::new(),
+            table: hashbrown::HashTable::new(),
+            hasher: S::default(),
+        }
+    }
+}
+
+impl<S: BuildHasher> TrialIds<S> {
+    /// Makes room for `more` ids without growing the table.
+    fn reserve(&mut self, more: usize) {
+        // Closures capture the fields they use, so the table can grow while they read the ids.
+        self.table.reserve(more, |&i| {
+            self.hasher.hash_one(stored(&self.bytes, &self.ends, i))
+        });
+        self.ends.reserve(more);
+    }
+
+    /// Adds `id`: `Some(true)` when it is new, `Some(false)` when it was seen before, `None` when
+    /// the ids would pass 4 GiB in all (more than any trials source within its size limit holds).
+    fn insert(&mut self, id: &[u8]) -> Option<bool> {
+        let TrialIds {
+            bytes,
+            ends,
+            table,
+            hasher,
+        } = self;
+        let entry = table.entry(
+            hasher.hash_one(id),
+            |&i| stored(bytes, ends, i) == id,
+            |&i| hasher.hash_one(stored(bytes, ends, i)),
+        );
+        let hashbrown::hash_table::Entry::Vacant(vacant) = entry else {
+            return Some(false);
+        };
+        let index = u32::try_from(ends.len()).ok()?;
+        let end = u32::try_from(bytes.len() + id.len()).ok()?;
+        bytes.extend_from_slice(id);
+        ends.push(end);
+        vacant.insert(index);
+        Some(true)
+    }
+}
+
+/// The id at `index` in [`TrialIds`]' buffer.
+fn stored<'a>(bytes: &'a [u8], ends: &[u32], index: u32) -> &'a [u8] {
+    let i = index as usize;
+    let start = i.checked_sub(1).map_or(0, |before| ends[before] as usize);
+    &bytes[start..ends[i] as usize]
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use proptest::prelude::*;
+
+    /// Every id hashes alike: each lookup must fall back to comparing bytes.
+    #[derive(Default)]
+    struct Colliding;
+
+    impl BuildHasher for Colliding {
+        type Hasher = Colliding;
+        fn build_hasher(&self) -> Colliding {
+            Colliding
+        }
+    }
+
+    impl std::hash::Hasher for Colliding {
+        fn finish(&self) -> u64 {
+            7
+        }
+        fn write(&mut self, _: &[u8]) {}
+    }
+
+    /// The obvious way: a set of owned ids.
+    fn oracle(ids: &[Vec<u8>]) -> Vec<bool> {
+        let mut seen = std::collections::HashSet::new();
+        ids.iter().map(|id| seen.insert(id.clone())).collect()
+    }
+
+    fn ids() -> impl Strategy<Value = Vec<Vec<u8>>> {
+        // A small alphabet and short ids, so duplicates (and ids that are prefixes of others,
+        // and the empty id) are common.
+        proptest::collection::vec(proptest::collection::vec(b'a'..=b'c', 0..4), 0..200)
+    }
+
+    proptest! {
+        #[test]
+        fn trial_ids_find_exactly_the_duplicates(ids in ids(), room in 0usize..300) {
+            let mut set = TrialIds::<foldhash::fast::RandomState>::default();
+            // Sized ahead (as from a file's size) or not, the answers are the same.
+            set.reserve(room);
+            let found: Vec<bool> = ids.iter().map(|id| set.insert(id).unwrap_or(false)).collect();
+            prop_assert_eq!(found, oracle(&ids));
+        }
+
+        #[test]
+        fn colliding_hashes_are_never_taken_for_duplicates(ids in ids()) {
+            let mut set = TrialIds::<Colliding>::default();
+            let found: Vec<bool> = ids.iter().map(|id| set.insert(id).unwrap_or(false)).collect();
+            prop_assert_eq!(found, oracle(&ids));
+        }
+
+        #[test]
+        fn decimal_equals_str_parse(
+            whole in "[0-9]{0,24}",
+            point in any::<bool>(),
+            fraction in "[0-9]{0,26}",
+        ) {
+            let text = if point { format!("{whole}.{fraction}") } else { whole.clone() };
+            let parsed = text.parse::<f64>().ok();
+            match decimal(text.as_bytes()) {
+                Some(fast) => prop_assert_eq!(Some(fast.to_bits()), parsed.map(f64::to_bits)),
+                None => {
+                    // Only what the fast path does not claim: a form it leaves out, or more
+                    // digits than fit exactly.
+                    let digits = whole.len() + if point { fraction.len() } else { 0 };
+                    let short = whole.trim_start_matches('0').len()
+                        + if point { fraction.len() } else { 0 };
+                    prop_assert!(
+                        whole.is_empty()
+                            || (point && fraction.is_empty())
+                            || fraction.len() > 22
+                            || short > 15
+                            || digits > 19,
+                        "{text:?} was refused"
+                    );
+                }
+            }
+        }
+
+        #[test]
+        fn anything_else_goes_to_str_parse(text in "[-+ .0-9eEinfatyINFATY_]{0,12}") {
+            let expected = text.trim().parse::<f64>().ok().map(f64::to_bits);
+            prop_assert_eq!(parse_score(&text).map(f64::to_bits), expected);
+        }
+    }
 }
