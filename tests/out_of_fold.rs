@@ -89,3 +89,88 @@ fn a_manifest_with_an_out_of_fold_file_checks_end_to_end() {
     assert_eq!(output.status.code(), Some(1), "{}", common::stderr(&output));
     assert!(common::stderr(&output).is_empty() || !common::stderr(&output).contains("error:"));
 }
+
+#[test]
+fn bbc_cv_on_mean_absolute_errors_heads_the_selection_optimism_finding() {
+    // Two configurations on six rows in three folds: `a` predicts every target 0.25 too high,
+    // `b` 1.0 too high. `a` has the smaller error on every row, so it wins every resample and its
+    // out-of-bag MAE is 0.25 in every resample (arithmetic): the BBC-CV estimate and both ends of
+    // its interval are 0.25 exactly. Both configurations' errors are constant over the rows, so
+    // they count as one effective configuration together (the documented rule for constants).
+    let dir = tempfile::tempdir().unwrap();
+    let targets = [1.0, 2.0, 3.5, -0.5, 4.0, 0.0];
+    let mut csv = String::from("configuration,row,fold,label,prediction\n");
+    for (config, offset) in [("a", 0.25), ("b", 1.0)] {
+        for (i, y) in targets.iter().enumerate() {
+            csv.push_str(&format!("{config},r{i},{},{y},{}\n", i % 3, y + offset));
+        }
+    }
+    std::fs::write(dir.path().join("oof.csv"), csv).unwrap();
+    let manifest = serde_json::json!({
+        "format_version": 1,
+        "models": [{
+            "name": "tide-depth",
+            "task": "regression",
+            "metric": "mae",
+            "seed": 5,
+            "data": {"train_rows": 6, "test_rows": 40, "test_fingerprint": "fp-tide"},
+            "search": {
+                "method": "grid",
+                "configurations": 2,
+                "out_of_fold": "oof.csv",
+                "cv": {"scheme": "k_fold", "folds": [
+                    {"rows": 2, "score": 0.25}, {"rows": 2, "score": 0.25}, {"rows": 2, "score": 0.25}
+                ]},
+            },
+            "holdout": [{"time": "2026-11-30T08:00:00Z", "score": 0.3}],
+            "claim": {"value": 0.25, "basis": "cv"},
+        }],
+    });
+    std::fs::write(dir.path().join("m.json"), manifest.to_string()).unwrap();
+    let report = dir.path().join("r.json");
+    let output = std::process::Command::new(env!("CARGO_BIN_EXE_vetscore"))
+        .args(["check", "--today", "2026-12-01", "--json"])
+        .arg(&report)
+        .arg("m.json")
+        .current_dir(dir.path())
+        .output()
+        .unwrap();
+    assert!(
+        matches!(output.status.code(), Some(0 | 1)),
+        "{}",
+        String::from_utf8_lossy(&output.stderr)
+    );
+    let report: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(report).unwrap()).unwrap();
+    let finding = report["models"][0]["findings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|f| f["rule"] == "selection_optimism")
+        .unwrap()
+        .clone();
+    let evidence = |key: &str| {
+        finding["evidence"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|e| e["key"] == key)
+            .unwrap_or_else(|| panic!("no {key} in {finding}"))
+            .clone()
+    };
+    assert_eq!(evidence("headline")["value"].as_f64(), Some(0.25));
+    assert!(
+        evidence("headline_method")["value"]
+            .as_str()
+            .unwrap()
+            .starts_with("BBC-CV")
+    );
+    let interval = evidence("bbc_interval");
+    assert_eq!(interval["lower"].as_f64(), Some(0.25));
+    assert_eq!(interval["upper"].as_f64(), Some(0.25));
+    assert_eq!(
+        evidence("effective_configurations")["value"].as_f64(),
+        Some(1.0)
+    );
+    assert_eq!(evidence("oof_configurations")["value"].as_f64(), Some(2.0));
+}

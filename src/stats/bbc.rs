@@ -158,6 +158,11 @@ impl RowValueMatrix {
         })
     }
 
+    /// Every value, configuration by configuration.
+    pub fn values(&self) -> &[f64] {
+        &self.values
+    }
+
     fn row_values(&self, configuration: usize) -> &[f64] {
         let start = configuration * self.rows;
         self.values.get(start..start + self.rows).unwrap_or(&[])

@@ -78,7 +78,7 @@ every gate reports all the estimates below. \
 The default gate, `calibrated`, was chosen by measuring every candidate on 216 real \
 scikit-learn searches whose truth is known (tests/calibration/). It reports the least biased \
 estimate of the selected configuration's score: BBC-CV (Tsamardinos, Greasidou & Borboudakis \
-2018) when the search names an out-of-fold file (`search.out_of_fold`, accuracy), else the CV \
+2018) when the search names an out-of-fold file (`search.out_of_fold`; accuracy and MAE), else the CV \
 score less E[max of M normals] × its standard error with M the stated \
 `effective_configurations`, else min(N, 2), which had no systematic error on the corpus (with \
 M = N it was 0.045 too low: real configurations are far from independent). The claim must not \
@@ -95,7 +95,7 @@ The estimates: (1) expected maximum, E[max of N standard normals] × the standar
 selected configuration's CV estimate, with E[max] from numerical integration of \
 N·x·φ(x)·Φ(x)^(N−1) (checked against Harter 1961 and Blom's 1958 approximation), N the stated \
 `effective_configurations`, else the effective number estimated from the out-of-fold file \
-(Galwey 2009, from the correlation of the configurations' per-row correctness), else the \
+(Galwey 2009, from the correlation of the configurations' per-row correctness or errors), else the \
 configurations counted. For accuracy the standard error is the Agresti–Coull (1998) form \
 √(p̃(1−p̃)/(n + z²)), p̃ = (x + z²/2)/(n + z²), which stays positive at 0/n and n/n where the \
 plug-in √(p̂(1−p̂)/n) is 0 and would call a perfect CV score exact; for other metrics bounded to \

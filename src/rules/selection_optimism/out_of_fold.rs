@@ -7,7 +7,9 @@
 
 use crate::finding::{Evidence, Quantity};
 use crate::manifest::{Metric, OutOfFold};
-use crate::stats::{self, BbcEstimate, IntervalSettings, OofResults};
+use crate::stats::{
+    self, BbcEstimate, Direction, IntervalSettings, OofResults, OofTruth, RowValueMatrix,
+};
 
 /// What the out-of-fold file told, for one search.
 #[derive(Debug, Clone)]
@@ -32,32 +34,59 @@ pub(super) fn analyse(
     threads: usize,
 ) -> OofFacts {
     let table = &oof.table;
+    // BBC-CV's input: bit-packed correctness for accuracy, per-row absolute errors for MAE.
     let correctness = match metric {
         Metric::Accuracy => table.correctness(),
         _ => None,
     };
-    let (bbc, effective) = match &correctness {
-        Some(matrix) => {
-            // BBC-CV needs at least 100 resamples; the policy's bootstrap count (default 2000)
-            // is used as it is when larger.
-            let resamples = intervals.resamples.max(100);
-            let bbc = stats::bbc_cv(
-                OofResults::Correctness(matrix),
-                resamples,
-                intervals.confidence,
-                intervals.seed,
-                threads.max(1),
-            )
-            .map_err(|e| format!("BBC-CV could not be computed: {e}"));
-            let effective = stats::effective_configurations_of_correctness(matrix)
-                .map(|e| e.galwey)
-                .map_err(|e| format!("the effective number could not be computed: {e}"));
-            (bbc, effective)
+    let absolute_errors = match (metric, &table.truth, &table.scores) {
+        (Metric::Mae, OofTruth::Values(truth), Some(predicted)) => {
+            let errors: Vec<f64> = predicted
+                .chunks_exact(table.rows.max(1))
+                .flat_map(|row| row.iter().zip(truth).map(|(p, y)| (y - p).abs()))
+                .collect();
+            Some(RowValueMatrix::new(
+                errors,
+                table.rows,
+                Direction::LowerIsBetter,
+            ))
         }
-        None => {
+        _ => None,
+    };
+    // BBC-CV needs at least 100 resamples; the policy's bootstrap count (default 2000) is used
+    // as it is when larger.
+    let resamples = intervals.resamples.max(100);
+    let bbc_of = |results: OofResults<'_>| {
+        stats::bbc_cv(
+            results,
+            resamples,
+            intervals.confidence,
+            intervals.seed,
+            threads.max(1),
+        )
+        .map_err(|e| format!("BBC-CV could not be computed: {e}"))
+    };
+    let effective_of = |e: stats::Result<stats::EffectiveConfigurations>| {
+        e.map(|e| e.galwey)
+            .map_err(|e| format!("the effective number could not be computed: {e}"))
+    };
+    let (bbc, effective) = match (&correctness, absolute_errors) {
+        (Some(matrix), _) => (
+            bbc_of(OofResults::Correctness(matrix)),
+            effective_of(stats::effective_configurations_of_correctness(matrix)),
+        ),
+        (None, Some(Ok(errors))) => (
+            bbc_of(OofResults::RowValues(&errors)),
+            effective_of(stats::effective_configurations(errors.values(), table.rows)),
+        ),
+        (None, Some(Err(e))) => {
+            let why = format!("the out-of-fold errors could not be formed: {e}");
+            (Err(why.clone()), Err(why))
+        }
+        (None, None) => {
             let why = format!(
-                "the out-of-fold file is used for accuracy only; for {} it is read and checked \
-                 but BBC-CV is not computed",
+                "BBC-CV is computed for accuracy and MAE; for {} the out-of-fold file is read \
+                 and checked only",
                 metric.name()
             );
             (Err(why.clone()), Err(why))
