@@ -29,11 +29,15 @@ EXPECTED = {
         "selection_optimism": "pass", "cv_test_gap": "pass", "recompute": "pass",
         "fingerprint": "pass", "leakage": "pass",
     }),
-    # 3 learning rates × 40 epochs = 120 looks at one validation split of 115 rows: the best
-    # validation accuracy claimed as it is must fail selection optimism (issue 13: choosing the
-    # best of N on one split is where the optimism is largest).
-    "validation_loop": (None, 1, {
-        "selection_optimism": "fail", "fold_size": "pass", "recompute": "pass",
+    # 3 learning rates × 40 epochs = 120 looks at one validation split of 115 rows, the best
+    # validation accuracy (111/115 = 0.9652) claimed as it is. Under the calibrated gate the
+    # least biased estimate is 0.954 (the score less E[max of 2 normals] × its standard error),
+    # within 0.002 of the untouched test split's 109/114 = 0.956; the claim is 0.009 above the
+    # test score, inside the 0.01 the calibration corpus counts as supported, and inside the
+    # bound the evidence supports (0.986), so the rule passes. (The old expected-maximum gate
+    # failed it, one of the 60% false alarms it raised on the corpus.)
+    "validation_loop": (None, 0, {
+        "selection_optimism": "pass", "fold_size": "pass", "recompute": "pass",
         "fingerprint": "pass", "leakage": "pass",
     }),
 }
