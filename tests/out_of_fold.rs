@@ -91,12 +91,19 @@ fn a_manifest_with_an_out_of_fold_file_checks_end_to_end() {
 }
 
 #[test]
-fn bbc_cv_on_mean_absolute_errors_heads_the_selection_optimism_finding() {
+fn bbc_cv_on_regression_errors_heads_the_selection_optimism_finding() {
     // Two configurations on six rows in three folds: `a` predicts every target 0.25 too high,
     // `b` 1.0 too high. `a` has the smaller error on every row, so it wins every resample and its
-    // out-of-bag MAE is 0.25 in every resample (arithmetic): the BBC-CV estimate and both ends of
-    // its interval are 0.25 exactly. Both configurations' errors are constant over the rows, so
-    // they count as one effective configuration together (the documented rule for constants).
+    // out-of-bag MAE, and RMSE √(0.25²), is 0.25 in every resample (arithmetic): the BBC-CV
+    // estimate and both ends of its interval are 0.25 exactly. Both configurations' errors are
+    // constant over the rows, so they count as one effective configuration together (the
+    // documented rule for constants). MAE is a per-row mean; RMSE goes through the weighted path.
+    for metric in ["mae", "rmse"] {
+        regression_case(metric);
+    }
+}
+
+fn regression_case(metric: &str) {
     let dir = tempfile::tempdir().unwrap();
     let targets = [1.0, 2.0, 3.5, -0.5, 4.0, 0.0];
     let mut csv = String::from("configuration,row,fold,label,prediction\n");
@@ -111,7 +118,7 @@ fn bbc_cv_on_mean_absolute_errors_heads_the_selection_optimism_finding() {
         "models": [{
             "name": "tide-depth",
             "task": "regression",
-            "metric": "mae",
+            "metric": metric,
             "seed": 5,
             "data": {"train_rows": 6, "test_rows": 40, "test_fingerprint": "fp-tide"},
             "search": {

@@ -443,7 +443,7 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
 
 /// The positive class: the one the manifest names, or for two classes named 0/1 or
 /// false/true, the second (common practice, no source).
-fn positive_class(classes: &[String], named: Option<&str>) -> Option<u32> {
+pub(crate) fn positive_class(classes: &[String], named: Option<&str>) -> Option<u32> {
     if let Some(name) = named {
         return classes.iter().position(|c| c == name).map(|i| i as u32);
     }

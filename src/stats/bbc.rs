@@ -3,7 +3,8 @@
 //!
 //! Owns: [`CorrectnessMatrix`] (bit-packed per-row correctness, for accuracy),
 //! [`RowValueMatrix`] (one value per configuration and row, for a per-row loss or score whose
-//! metric is its mean), [`OofResults`] (the two behind one input), [`bbc_cv`] and [`BbcEstimate`].
+//! metric is its mean), [`OofResults`] (the two, or any [`super::WeightedMetric`], behind one
+//! input), [`bbc_cv`] and [`BbcEstimate`].
 //!
 //! Method (Tsamardinos, Greasidou & Borboudakis 2018, "Bootstrapping the out-of-sample
 //! predictions for efficient and accurate cross-validation", Machine Learning 107:1895–1922,
@@ -29,6 +30,7 @@ use super::bootstrap::{check_resamples, percentile_interval};
 use super::error::{Result, StatsError, check_unit_open};
 use super::proportion::Interval;
 use super::rng::Rng;
+use super::weighted::WeightedMetric;
 
 /// Resamples per block: one generator per block, so blocks can run on any thread.
 const BLOCK: usize = 32;
@@ -176,6 +178,19 @@ pub enum OofResults<'a> {
     Correctness(&'a CorrectnessMatrix),
     /// Any metric that is the mean of a per-row value.
     RowValues(&'a RowValueMatrix),
+    /// Any other metric, recomputed from the rows with their multiplicities (F1, ROC AUC, ...).
+    Weighted(&'a dyn WeightedMetric),
+}
+
+impl std::fmt::Debug for dyn WeightedMetric + '_ {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(
+            f,
+            "WeightedMetric({} × {})",
+            self.configurations(),
+            self.rows()
+        )
+    }
 }
 
 impl OofResults<'_> {
@@ -183,6 +198,7 @@ impl OofResults<'_> {
         match self {
             Self::Correctness(m) => m.configurations(),
             Self::RowValues(m) => m.values.len() / m.rows,
+            Self::Weighted(m) => m.configurations(),
         }
     }
 
@@ -190,6 +206,7 @@ impl OofResults<'_> {
         match self {
             Self::Correctness(m) => m.rows,
             Self::RowValues(m) => m.rows,
+            Self::Weighted(m) => m.rows(),
         }
     }
 
@@ -199,7 +216,7 @@ impl OofResults<'_> {
         match self {
             // About four bit planes for n up to 10⁷ (the largest multiplicity rarely exceeds 15).
             Self::Correctness(m) => rows + configs * m.words as u64 * 5,
-            Self::RowValues(_) => rows + configs * rows,
+            Self::RowValues(_) | Self::Weighted(_) => rows + configs * rows,
         }
     }
 
@@ -217,6 +234,7 @@ impl OofResults<'_> {
                     hits as f64 / n
                 }
                 Self::RowValues(m) => m.row_values(c).iter().sum::<f64>() / n,
+                Self::Weighted(m) => m.score(c, &vec![1; m.rows()]),
             })
             .collect()
     }
@@ -225,6 +243,7 @@ impl OofResults<'_> {
         match self {
             Self::Correctness(_) => true,
             Self::RowValues(m) => m.direction == Direction::HigherIsBetter,
+            Self::Weighted(m) => m.higher_is_better(),
         }
     }
 }
@@ -398,6 +417,8 @@ fn best_index(values: &[f64], higher_is_better: bool) -> usize {
 struct Workspace {
     multiplicity: Vec<u32>,
     planes: Vec<Vec<u64>>,
+    /// Weights of the out-of-bag rows (1 where the multiplicity is 0), for weighted metrics.
+    out_of_bag: Vec<u32>,
 }
 
 impl Workspace {
@@ -405,6 +426,7 @@ impl Workspace {
         Self {
             multiplicity: vec![0; rows],
             planes: Vec::new(),
+            out_of_bag: Vec::new(),
         }
     }
 
@@ -420,7 +442,39 @@ impl Workspace {
         match results {
             OofResults::Correctness(m) => self.correctness_resample(m),
             OofResults::RowValues(m) => self.row_value_resample(m),
+            OofResults::Weighted(m) => self.weighted_resample(*m),
         }
+    }
+
+    /// The in-bag winner by the metric on the rows with their multiplicities (a NaN metric never
+    /// wins; the first configuration wins ties), scored on the out-of-bag rows.
+    fn weighted_resample(&mut self, metric: &dyn WeightedMetric) -> f64 {
+        let higher = metric.higher_is_better();
+        let mut best: Option<(usize, f64)> = None;
+        for c in 0..metric.configurations() {
+            let value = metric.score(c, &self.multiplicity);
+            if value.is_nan() {
+                continue;
+            }
+            let better = match best {
+                None => true,
+                Some((_, b)) if higher => value > b,
+                Some((_, b)) => value < b,
+            };
+            if better {
+                best = Some((c, value));
+            }
+        }
+        let Some((winner, _)) = best else {
+            return f64::NAN;
+        };
+        self.out_of_bag.clear();
+        self.out_of_bag
+            .extend(self.multiplicity.iter().map(|&m| u32::from(m == 0)));
+        if self.out_of_bag.iter().all(|&w| w == 0) {
+            return f64::NAN;
+        }
+        metric.score(winner, &self.out_of_bag)
     }
 
     fn correctness_resample(&mut self, matrix: &CorrectnessMatrix) -> f64 {

@@ -45,6 +45,7 @@ mod sample_size;
 mod selection;
 mod sign_flip;
 mod special;
+mod weighted;
 
 pub use bbc::{
     BbcEstimate, CorrectnessMatrix, Direction, MAX_WORK, OofResults, RowValueMatrix, bbc_cv,
@@ -88,6 +89,7 @@ pub use sign_flip::{
     NO_SPREAD_RELATIVE, SIGN_FLIP_EXACT_UP_TO, floored_p, no_spread, sign_flip_exact, swap_floor,
 };
 pub use special::incomplete_beta;
+pub use weighted::{ClassKind, ClassMetric, ErrorKind, ErrorMetric, RankMetric, WeightedMetric};
 
 /// How every interval of a check is formed: the confidence level, the method for proportions,
 /// and the resample count and seed of the bootstraps (so a result can be reproduced).

@@ -78,7 +78,7 @@ every gate reports all the estimates below. \
 The default gate, `calibrated`, was chosen by measuring every candidate on 216 real \
 scikit-learn searches whose truth is known (tests/calibration/). It reports the least biased \
 estimate of the selected configuration's score: BBC-CV (Tsamardinos, Greasidou & Borboudakis \
-2018) when the search names an out-of-fold file (`search.out_of_fold`; accuracy and MAE), else the CV \
+2018) when the search names an out-of-fold file (`search.out_of_fold`; every metric, on the rows with their bootstrap multiplicities), else the CV \
 score less E[max of M normals] × its standard error with M the stated \
 `effective_configurations`, else min(N, 2), which had no systematic error on the corpus (with \
 M = N it was 0.045 too low: real configurations are far from independent). The claim must not \
@@ -188,10 +188,24 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
         );
     };
     let confidence = ctx.intervals.confidence;
+    let hints = out_of_fold::ClassHints {
+        positive: model
+            .predictions
+            .as_ref()
+            .and_then(|p| match &p.set.columns {
+                crate::evidence::Columns::Classification { classes, .. } => p
+                    .set
+                    .positive
+                    .and_then(|i| classes.get(i as usize))
+                    .map(String::as_str),
+                crate::evidence::Columns::Regression { .. } => None,
+            }),
+        f1: model.predictions.as_ref().map(|p| p.f1),
+    };
     let oof = search
         .out_of_fold
         .as_ref()
-        .map(|o| out_of_fold::analyse(o, model.metric, &ctx.intervals, ctx.threads));
+        .map(|o| out_of_fold::analyse(o, model.metric, hints, &ctx.intervals, ctx.threads));
     // The configurations the expected maximum assumes: stated, else estimated from the
     // out-of-fold results, else counted.
     let estimated = oof

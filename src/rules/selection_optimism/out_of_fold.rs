@@ -6,9 +6,12 @@
 //! failure of a statistic becomes a sentence for the report, never a panic or a silent zero.
 
 use crate::finding::{Evidence, Quantity};
+use crate::manifest::raw::F1Mode;
 use crate::manifest::{Metric, OutOfFold};
 use crate::stats::{
-    self, BbcEstimate, Direction, IntervalSettings, OofResults, OofTruth, RowValueMatrix,
+    self, BbcEstimate, ClassKind, ClassMetric, CorrectnessMatrix, Direction, ErrorKind,
+    ErrorMetric, F1Average, IntervalSettings, OofResults, OofTable, OofTruth, RankMetric,
+    RowValueMatrix, WeightedMetric,
 };
 
 /// What the out-of-fold file told, for one search.
@@ -24,35 +27,34 @@ pub(super) struct OofFacts {
     pub effective: Result<f64, String>,
 }
 
+/// What the model says about its classes, for the metrics that need it.
+#[derive(Debug, Clone, Copy)]
+pub(super) struct ClassHints<'a> {
+    /// The positive class's name (from the predictions' `positive_class`), if named.
+    pub positive: Option<&'a str>,
+    /// The F1 averaging the model's predictions use (binary for two classes, else macro).
+    pub f1: Option<F1Mode>,
+}
+
+/// BBC-CV's input for one metric, and the per-row values whose correlation gives the effective
+/// number of configurations.
+enum Input<'a> {
+    Correctness(CorrectnessMatrix),
+    RowValues(RowValueMatrix),
+    Weighted(Box<dyn WeightedMetric + 'a>, Vec<f64>),
+}
+
 /// BBC-CV and the effective number of configurations from the table, with the policy's
 /// confidence, resample count and seed; `threads` only changes how fast (results are
 /// bit-identical for any count).
 pub(super) fn analyse(
     oof: &OutOfFold,
     metric: Metric,
+    hints: ClassHints<'_>,
     intervals: &IntervalSettings,
     threads: usize,
 ) -> OofFacts {
     let table = &oof.table;
-    // BBC-CV's input: bit-packed correctness for accuracy, per-row absolute errors for MAE.
-    let correctness = match metric {
-        Metric::Accuracy => table.correctness(),
-        _ => None,
-    };
-    let absolute_errors = match (metric, &table.truth, &table.scores) {
-        (Metric::Mae, OofTruth::Values(truth), Some(predicted)) => {
-            let errors: Vec<f64> = predicted
-                .chunks_exact(table.rows.max(1))
-                .flat_map(|row| row.iter().zip(truth).map(|(p, y)| (y - p).abs()))
-                .collect();
-            Some(RowValueMatrix::new(
-                errors,
-                table.rows,
-                Direction::LowerIsBetter,
-            ))
-        }
-        _ => None,
-    };
     // BBC-CV needs at least 100 resamples; the policy's bootstrap count (default 2000) is used
     // as it is when larger.
     let resamples = intervals.resamples.max(100);
@@ -70,33 +72,151 @@ pub(super) fn analyse(
         e.map(|e| e.galwey)
             .map_err(|e| format!("the effective number could not be computed: {e}"))
     };
-    let (bbc, effective) = match (&correctness, absolute_errors) {
-        (Some(matrix), _) => (
-            bbc_of(OofResults::Correctness(matrix)),
-            effective_of(stats::effective_configurations_of_correctness(matrix)),
+    let (bbc, effective) = match input(table, metric, hints) {
+        Ok(Input::Correctness(matrix)) => (
+            bbc_of(OofResults::Correctness(&matrix)),
+            effective_of(stats::effective_configurations_of_correctness(&matrix)),
         ),
-        (None, Some(Ok(errors))) => (
-            bbc_of(OofResults::RowValues(&errors)),
-            effective_of(stats::effective_configurations(errors.values(), table.rows)),
+        Ok(Input::RowValues(values)) => (
+            bbc_of(OofResults::RowValues(&values)),
+            effective_of(stats::effective_configurations(values.values(), table.rows)),
         ),
-        (None, Some(Err(e))) => {
-            let why = format!("the out-of-fold errors could not be formed: {e}");
-            (Err(why.clone()), Err(why))
-        }
-        (None, None) => {
-            let why = format!(
-                "BBC-CV is computed for accuracy and MAE; for {} the out-of-fold file is read \
-                 and checked only",
-                metric.name()
-            );
-            (Err(why.clone()), Err(why))
-        }
+        Ok(Input::Weighted(m, per_row)) => (
+            bbc_of(OofResults::Weighted(m.as_ref())),
+            effective_of(stats::effective_configurations(&per_row, table.rows)),
+        ),
+        Err(why) => (Err(why.clone()), Err(why)),
     };
     OofFacts {
         configurations: table.configurations.len(),
         rows: table.rows,
         bbc,
         effective,
+    }
+}
+
+/// The table as BBC-CV reads it for `metric`, or why it cannot.
+fn input<'a>(
+    table: &'a OofTable,
+    metric: Metric,
+    hints: ClassHints<'_>,
+) -> Result<Input<'a>, String> {
+    let rows = table.rows.max(1);
+    let unavailable = |what: &str| {
+        format!(
+            "BBC-CV for {} needs {what}; the out-of-fold file is read and checked only",
+            metric.name()
+        )
+    };
+    let stats_error = |e: stats::StatsError| format!("BBC-CV's input could not be formed: {e}");
+    match (&table.truth, metric) {
+        (OofTruth::Classes { names, labels }, _) => {
+            let positive = crate::evidence::read::positive_class(names, hints.positive);
+            let correctness_values = || -> Option<Vec<f64>> {
+                let predicted = table.predicted.as_ref()?;
+                Some(
+                    predicted
+                        .chunks_exact(rows)
+                        .flat_map(|row| {
+                            row.iter()
+                                .zip(labels)
+                                .map(|(p, l)| f64::from(u8::from(p == l)))
+                        })
+                        .collect(),
+                )
+            };
+            match metric {
+                Metric::Accuracy => table
+                    .correctness()
+                    .map(Input::Correctness)
+                    .ok_or_else(|| unavailable("predicted classes")),
+                Metric::BalancedAccuracy | Metric::F1 => {
+                    let predicted = table
+                        .predicted
+                        .as_deref()
+                        .ok_or_else(|| unavailable("predicted classes"))?;
+                    let kind = if metric == Metric::BalancedAccuracy {
+                        ClassKind::BalancedAccuracy
+                    } else {
+                        ClassKind::F1(
+                            match hints.f1.unwrap_or(if names.len() <= 2 {
+                                F1Mode::Binary
+                            } else {
+                                F1Mode::Macro
+                            }) {
+                                F1Mode::Binary => F1Average::Binary {
+                                    positive: positive.ok_or_else(|| {
+                                        unavailable("a positive class (predictions.positive_class)")
+                                    })? as usize,
+                                },
+                                F1Mode::Macro => F1Average::Macro,
+                                F1Mode::Micro => F1Average::Micro,
+                            },
+                        )
+                    };
+                    let m = ClassMetric::new(labels, predicted, names.len(), kind)
+                        .map_err(stats_error)?;
+                    Ok(Input::Weighted(
+                        Box::new(m),
+                        correctness_values().unwrap_or_default(),
+                    ))
+                }
+                Metric::RocAuc | Metric::LogLoss => {
+                    let scores = table
+                        .scores
+                        .as_deref()
+                        .ok_or_else(|| unavailable("a score per row"))?;
+                    let positive = positive.ok_or_else(|| {
+                        unavailable("a positive class (predictions.positive_class)")
+                    })?;
+                    let is_positive: Vec<bool> = labels.iter().map(|&l| l == positive).collect();
+                    if metric == Metric::LogLoss {
+                        // Per-row log loss as scikit-learn 1.9.1 clips it (stats::LogLoss).
+                        let losses: Vec<f64> = scores
+                            .chunks_exact(rows)
+                            .flat_map(|row| {
+                                row.iter().zip(&is_positive).map(|(&p, &y)| {
+                                    let q = if y { p } else { 1.0 - p };
+                                    -q.clamp(f64::EPSILON, 1.0 - f64::EPSILON).ln()
+                                })
+                            })
+                            .collect();
+                        return RowValueMatrix::new(losses, table.rows, Direction::LowerIsBetter)
+                            .map(Input::RowValues)
+                            .map_err(stats_error);
+                    }
+                    // The ranks are what ROC AUC reads; the scores' correlation stands in for it.
+                    let m = RankMetric::new(is_positive, scores).map_err(stats_error)?;
+                    Ok(Input::Weighted(Box::new(m), scores.to_vec()))
+                }
+                _ => Err(unavailable("a classification metric")),
+            }
+        }
+        (OofTruth::Values(truth), Metric::Mae | Metric::Rmse | Metric::R2) => {
+            let predicted = table
+                .scores
+                .as_deref()
+                .ok_or_else(|| unavailable("a predicted value per row"))?;
+            let errors = |f: fn(f64) -> f64| -> Vec<f64> {
+                predicted
+                    .chunks_exact(rows)
+                    .flat_map(|row| row.iter().zip(truth).map(move |(p, y)| f(y - p)))
+                    .collect()
+            };
+            if metric == Metric::Mae {
+                return RowValueMatrix::new(errors(f64::abs), table.rows, Direction::LowerIsBetter)
+                    .map(Input::RowValues)
+                    .map_err(stats_error);
+            }
+            let kind = if metric == Metric::Rmse {
+                ErrorKind::Rmse
+            } else {
+                ErrorKind::R2
+            };
+            let m = ErrorMetric::new(truth, predicted, kind).map_err(stats_error)?;
+            Ok(Input::Weighted(Box::new(m), errors(|e| e * e)))
+        }
+        (OofTruth::Values(_), _) => Err(unavailable("a regression metric")),
     }
 }
 
