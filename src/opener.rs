@@ -64,6 +64,8 @@ pub enum Kind {
     OutOfFold,
     /// A predictions file (Parquet), read at offsets.
     PredictionsParquet,
+    /// A search's out-of-fold predictions (Parquet), read at offsets.
+    OutOfFoldParquet,
     /// A train or test id list (one id per line).
     Ids,
     /// The holdout ledger (JSON Lines).
@@ -105,9 +107,11 @@ impl Kind {
             Kind::TrialsCsv | Kind::TrialsJsonl => 1024 * MIB,
             // Parsed whole, so it bounds memory (several times its size as parsed values).
             Kind::TrialsResultsJson => 256 * MIB,
-            Kind::Predictions | Kind::OutOfFold | Kind::PredictionsParquet | Kind::Ids => {
-                4096 * MIB
-            }
+            Kind::Predictions
+            | Kind::OutOfFold
+            | Kind::PredictionsParquet
+            | Kind::OutOfFoldParquet
+            | Kind::Ids => 4096 * MIB,
             Kind::Ledger => 256 * MIB,
             Kind::Template | Kind::ReviewedPolicies => MIB,
         }
@@ -120,7 +124,7 @@ impl Kind {
             Kind::Policy => "policy",
             Kind::TrialsCsv | Kind::TrialsJsonl | Kind::TrialsResultsJson => "trials file",
             Kind::Predictions | Kind::PredictionsParquet => "predictions file",
-            Kind::OutOfFold => "out-of-fold file",
+            Kind::OutOfFold | Kind::OutOfFoldParquet => "out-of-fold file",
             Kind::Ids => "id list",
             Kind::Ledger => "ledger",
             Kind::BaseReport => "base report",
@@ -133,7 +137,7 @@ impl Kind {
         match self {
             Kind::TrialsCsv | Kind::Predictions | Kind::OutOfFold => Framing::Csv,
             Kind::TrialsJsonl | Kind::Ids | Kind::Ledger | Kind::ReviewedPolicies => Framing::Lines,
-            Kind::PredictionsParquet => Framing::Binary,
+            Kind::PredictionsParquet | Kind::OutOfFoldParquet => Framing::Binary,
             Kind::Manifest
             | Kind::StdinManifest
             | Kind::Policy

@@ -181,3 +181,45 @@ fn regression_case(metric: &str) {
     );
     assert_eq!(evidence("oof_configurations")["value"].as_f64(), Some(2.0));
 }
+
+fn knn_expect() -> OofExpect<'static> {
+    OofExpect {
+        task: Task::Binary,
+        metric: Metric::Accuracy,
+        classes: None,
+        fold_rows: Some(&[50, 50, 50, 50]),
+        named_by: "the test",
+    }
+}
+
+#[test]
+fn a_parquet_out_of_fold_file_reads_as_its_csv() {
+    // fixtures/parquet/make_parquet.py wrote the CSV's rows with pandas 3.1.1 and pyarrow 26.0.1
+    // (ids as strings, configurations, folds and classes as int64, scores as float64).
+    let csv = read_out_of_fold(
+        &common::root().join("tests/sklearn/knn_oof.csv"),
+        knn_expect(),
+    )
+    .unwrap();
+    let parquet = read_out_of_fold(
+        &common::root().join("fixtures/parquet/knn-oof.pandas.parquet"),
+        knn_expect(),
+    )
+    .unwrap();
+    assert_eq!(parquet, csv);
+}
+
+#[test]
+fn a_blank_parquet_cell_is_refused_with_its_row_and_column() {
+    // The third data row's label is null (pandas' NA), which a CSV would hold as a blank cell.
+    let problems = read_out_of_fold(
+        &common::root().join("fixtures/parquet/knn-oof-null-label.pandas.parquet"),
+        knn_expect(),
+    )
+    .unwrap_err();
+    let text: Vec<String> = problems.iter().map(ToString::to_string).collect();
+    assert!(
+        text.iter().any(|t| t.contains("row 3, column label")),
+        "{text:#?}"
+    );
+}

@@ -291,6 +291,9 @@ pub struct OofBuilder<'a> {
     /// The configuration and row ids of the record being read, reused from record to record so
     /// a record allocates nothing.
     ids: [Vec<u8>; 2],
+    /// A columnar file's column names: problems are then placed as `row N, column NAME` (the
+    /// record number passed as the line is the 1-based data row), as for Parquet predictions.
+    columnar: Option<Vec<String>>,
 }
 
 impl<'a> OofBuilder<'a> {
@@ -311,7 +314,14 @@ impl<'a> OofBuilder<'a> {
             over_limit: false,
             scratch: String::new(),
             ids: Default::default(),
+            columnar: None,
         }
+    }
+
+    /// Places problems by data row and column name, for a columnar file with these columns.
+    pub fn columnar(mut self, names: Vec<String>) -> Self {
+        self.columnar = Some(names);
+        self
     }
 
     /// Whether reading should stop: enough problems, or the size bound passed.
@@ -327,8 +337,21 @@ impl<'a> OofBuilder<'a> {
         what: &str,
         message: String,
     ) {
-        if self.problems.len() < MAX_PROBLEMS {
-            self.problems.push(Diagnostic::at(
+        if self.problems.len() >= MAX_PROBLEMS {
+            return;
+        }
+        let diagnostic = match &self.columnar {
+            Some(names) => {
+                let name = column
+                    .and_then(|c| names.get(c))
+                    .map_or(what, String::as_str);
+                let path = match line {
+                    Some(row) => format!("row {row}, column {name}"),
+                    None => format!("column {name}"),
+                };
+                Diagnostic::at(&self.file, Place::default(), path, message)
+            }
+            None => Diagnostic::at(
                 &self.file,
                 Place {
                     line,
@@ -336,8 +359,9 @@ impl<'a> OofBuilder<'a> {
                 },
                 what,
                 message,
-            ));
-        }
+            ),
+        };
+        self.problems.push(diagnostic);
     }
 
     /// Copies an id cell (configuration or row) into `buf`; false, with a problem, when it is
@@ -807,7 +831,7 @@ fn cell(record: &csv::ByteRecord, c: usize) -> Cell<'_> {
 /// Reads and checks an out-of-fold CSV file.
 pub fn read_out_of_fold(path: &Path, expect: OofExpect<'_>) -> Result<OofTable, Vec<Diagnostic>> {
     let file = path.display().to_string();
-    let handle = crate::opener::open(path, crate::opener::Kind::OutOfFold).map_err(|reason| {
+    let refused = |reason: String| {
         vec![Diagnostic::file(
             &file,
             format!(
@@ -815,10 +839,25 @@ pub fn read_out_of_fold(path: &Path, expect: OofExpect<'_>) -> Result<OofTable, 
                 expect.named_by
             ),
         )]
-    })?;
+    };
+    // Parquet by name or by its magic bytes, as for predictions files.
+    let named_parquet = path
+        .extension()
+        .is_some_and(|e| e.eq_ignore_ascii_case("parquet"));
+    let mut buffered = if named_parquet {
+        None
+    } else {
+        let handle = crate::opener::open(path, crate::opener::Kind::OutOfFold).map_err(refused)?;
+        let mut buffered = std::io::BufReader::with_capacity(1 << 20, handle);
+        let head = std::io::BufRead::fill_buf(&mut buffered).unwrap_or_default();
+        (!super::columnar::looks_like_parquet(head)).then_some(buffered)
+    };
+    let Some(handle) = buffered.take() else {
+        return read_out_of_fold_columnar(path, &file, expect, refused);
+    };
     let mut csv = csv::ReaderBuilder::new()
         .has_headers(true)
-        .from_reader(std::io::BufReader::with_capacity(1 << 20, handle));
+        .from_reader(handle);
     let header = csv_header(&mut csv, &file)?;
     let layout = Layout::from_header(&file, header.iter(), &expect).map_err(|d| vec![d])?;
     let mut builder = OofBuilder::new(&file, expect, layout);
@@ -849,6 +888,81 @@ pub fn read_out_of_fold(path: &Path, expect: OofExpect<'_>) -> Result<OofTable, 
                 break;
             }
         }
+    }
+    builder.finish()
+}
+
+/// [`read_out_of_fold`] of a Parquet file: the same checks and messages, placed by data row and
+/// column name.
+fn read_out_of_fold_columnar(
+    path: &Path,
+    file: &str,
+    expect: OofExpect<'_>,
+    refused: impl Fn(String) -> Vec<Diagnostic>,
+) -> Result<OofTable, Vec<Diagnostic>> {
+    use super::columnar::{self, Type};
+    let table = columnar::open(path, crate::opener::Kind::OutOfFoldParquet)
+        .map_err(&refused)?
+        .map_err(|p| {
+            let at = match (p.row, &p.column) {
+                (Some(row), Some(column)) => format!("row {row}, column {column}"),
+                (None, Some(column)) => format!("column {column}"),
+                _ => "(file)".to_owned(),
+            };
+            vec![Diagnostic::at(file, Place::default(), at, p.message)]
+        })?;
+    let names: Vec<String> = table.columns().iter().map(|c| c.name.clone()).collect();
+    let layout = Layout::from_header(file, names.iter().map(String::as_bytes), &expect)
+        .map_err(|d| vec![d])?;
+    let classify = expect.task != Task::Regression;
+    let mut roles = vec![
+        (layout.configuration, &[Type::Text, Type::Int][..]),
+        (layout.row, &[Type::Text, Type::Int][..]),
+        (layout.fold, &[Type::Int][..]),
+    ];
+    let classes: &[Type] = &[Type::Text, Type::Int, Type::Bool];
+    let numbers: &[Type] = &[Type::Int, Type::Float];
+    roles.push((layout.label, if classify { classes } else { numbers }));
+    if let Some(c) = layout.prediction {
+        roles.push((c, if classify { classes } else { numbers }));
+    }
+    if let Some(c) = layout.score {
+        roles.push((c, numbers));
+    }
+    let problems: Vec<Diagnostic> = roles
+        .iter()
+        .filter_map(|&(c, accepted)| {
+            super::read::column_type_problem(file, &table.columns()[c], accepted)
+        })
+        .collect();
+    if !problems.is_empty() {
+        return Err(problems);
+    }
+    let mut wanted: Vec<usize> = roles.iter().map(|&(c, _)| c).collect();
+    wanted.sort_unstable();
+    let mut builder = OofBuilder::new(file, expect, layout).columnar(names);
+    let visited = table.visit(&wanted, |row, cells| {
+        if builder.full() {
+            return false;
+        }
+        let record = OofRecord {
+            configuration: cells[layout.configuration],
+            row: cells[layout.row],
+            fold: cells[layout.fold],
+            label: cells[layout.label],
+            prediction: layout.prediction.map(|c| cells[c]),
+            score: layout.score.map(|c| cells[c]),
+        };
+        builder.push(row, &record);
+        true
+    });
+    if let Err(p) = visited {
+        builder.problem(
+            p.row,
+            None,
+            p.column.as_deref().unwrap_or("(file)"),
+            p.message,
+        );
     }
     builder.finish()
 }

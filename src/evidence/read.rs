@@ -508,33 +508,42 @@ fn check_types(
             _ if name.starts_with("prob_") => &[Type::Int, Type::Float],
             _ => continue,
         };
-        let found = match &column.kind {
-            Ok(kind) if accepted.contains(kind) => {
-                wanted.push(i);
-                continue;
-            }
-            Ok(kind) => kind.noun().to_owned(),
-            Err(other) => other.clone(),
-        };
-        let expected: Vec<&str> = accepted.iter().map(|t| t.noun()).collect();
-        problems.push(
-            Diagnostic::at(
-                file,
-                Place::default(),
-                format!("column {}", column.name),
-                format!(
-                    "the column holds {found}; expected {}",
-                    expected.join(" or ")
-                ),
-            )
-            .with_help("write the column with one of the accepted types (see docs/manifest.md)"),
-        );
+        match column_type_problem(file, column, accepted) {
+            None => wanted.push(i),
+            Some(problem) => problems.push(problem),
+        }
     }
     if problems.is_empty() {
         Ok(wanted)
     } else {
         Err(problems)
     }
+}
+
+/// The problem with a columnar file's column whose type is not one of `accepted`, if it has one.
+pub(crate) fn column_type_problem(
+    file: &str,
+    column: &columnar::Column,
+    accepted: &[columnar::Type],
+) -> Option<Diagnostic> {
+    let found = match &column.kind {
+        Ok(kind) if accepted.contains(kind) => return None,
+        Ok(kind) => kind.noun().to_owned(),
+        Err(other) => other.clone(),
+    };
+    let expected: Vec<&str> = accepted.iter().map(|t| t.noun()).collect();
+    Some(
+        Diagnostic::at(
+            file,
+            Place::default(),
+            format!("column {}", column.name),
+            format!(
+                "the column holds {found}; expected {}",
+                expected.join(" or ")
+            ),
+        )
+        .with_help("write the column with one of the accepted types (see docs/manifest.md)"),
+    )
 }
 
 fn read_rows<R: std::io::Read>(
