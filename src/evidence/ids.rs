@@ -1,13 +1,14 @@
 //! Train and test id lists, for the leakage check: no row id may be in both.
 //!
 //! An id list is a text file with one id per line (a trailing `\r` is dropped; blank lines are
-//! skipped). The test ids are held in one byte arena, sorted; the train ids are streamed and
-//! looked up by binary search, so memory is about twice the bytes of the test ids.
+//! skipped). Each list is held in one byte arena and sorted once by key ([`IdArena::sorted`]);
+//! the two sorted lists are then merged ([`super::walk`]), so memory is about twice the bytes of
+//! the ids and time n log n whatever the ids share.
 
 use std::io::BufRead;
 use std::path::Path;
 
-use super::IdArena;
+use super::{IdArena, Step};
 use crate::diag::Diagnostic;
 
 /// How many overlapping ids a report names.
@@ -86,6 +87,20 @@ fn for_each_id(
     }
 }
 
+/// Reads an id list whole.
+fn read_all(path: &Path, named_by: &str, which: &str) -> Result<IdArena, Diagnostic> {
+    let mut ids = IdArena::default();
+    for_each_id(path, named_by, |id| {
+        ids.push(id).ok_or_else(|| {
+            Diagnostic::file(
+                path.display().to_string(),
+                format!("the {which} ids exceed 4 GiB"),
+            )
+        })
+    })?;
+    Ok(ids)
+}
+
 /// Compares a train id list with a test id list.
 pub fn overlap(
     train: &Path,
@@ -93,30 +108,68 @@ pub fn overlap(
     test: &Path,
     test_named_by: &str,
 ) -> Result<Overlap, Diagnostic> {
-    let mut test_ids = IdArena::default();
-    for_each_id(test, test_named_by, |id| {
-        test_ids.push(id).ok_or_else(|| {
-            Diagnostic::file(test.display().to_string(), "the test ids exceed 4 GiB")
-        })
-    })?;
-    let sorted = test_ids.sorted();
+    let test_ids = read_all(test, test_named_by, "test")?;
+    let train_ids = read_all(train, train_named_by, "train")?;
+    Ok(overlap_of(&train_ids, &test_ids))
+}
+
+/// What two id lists share: every train id found among the test ids counts, a repeated train id
+/// each time it appears.
+pub fn overlap_of(train: &IdArena, test: &IdArena) -> Overlap {
     let mut result = Overlap {
-        train_ids: 0,
-        test_ids: test_ids.len() as u64,
+        train_ids: train.len() as u64,
+        test_ids: test.len() as u64,
         shared: 0,
         examples: Vec::new(),
     };
-    for_each_id(train, train_named_by, |id| {
-        result.train_ids += 1;
-        if sorted.contains(id) {
+    // The first few shared train rows in file order: the merge meets them in id order.
+    let mut first_rows: Vec<u32> = Vec::with_capacity(SHOWN + 1);
+    super::walk((train, &train.sorted()), (test, &test.sorted()), |step| {
+        if let Step::Both(row, _) = step {
             result.shared += 1;
-            if result.examples.len() < SHOWN {
-                result
-                    .examples
-                    .push(String::from_utf8_lossy(id).into_owned());
+            if first_rows.len() < SHOWN || first_rows.last().is_some_and(|&last| row < last) {
+                let at = first_rows.partition_point(|&r| r < row);
+                first_rows.insert(at, row);
+                first_rows.truncate(SHOWN);
             }
         }
-        Ok(())
-    })?;
-    Ok(result)
+    });
+    result.examples = first_rows
+        .iter()
+        .map(|&row| String::from_utf8_lossy(train.get(row as usize)).into_owned())
+        .collect();
+    result
+}
+
+#[cfg(test)]
+#[allow(clippy::unwrap_used)]
+mod tests {
+    use super::*;
+
+    proptest::proptest! {
+        /// The merge of the two sorted lists against the obvious: a `HashSet` of the test ids,
+        /// the train ids looked up in file order. Both lists may repeat ids.
+        #[test]
+        fn overlap_agrees_with_a_set(
+            train in proptest::collection::vec(crate::evidence::tests::hostile_id(), 0..60),
+            test in proptest::collection::vec(crate::evidence::tests::hostile_id(), 0..60),
+        ) {
+            let arena = |ids: &[String]| {
+                let mut arena = IdArena::default();
+                for id in ids {
+                    arena.push(id.as_bytes()).unwrap();
+                }
+                arena
+            };
+            let test_set: std::collections::HashSet<&String> = test.iter().collect();
+            let shared: Vec<String> = train.iter().filter(|id| test_set.contains(id)).cloned().collect();
+            let got = overlap_of(&arena(&train), &arena(&test));
+            proptest::prop_assert_eq!(got, Overlap {
+                train_ids: train.len() as u64,
+                test_ids: test.len() as u64,
+                shared: shared.len() as u64,
+                examples: shared.into_iter().take(SHOWN).collect(),
+            });
+        }
+    }
 }

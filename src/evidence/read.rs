@@ -400,9 +400,8 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
     if !problems.list.is_empty() {
         return Err(problems.list);
     }
-    let sorted = ids.sorted();
-    let order = sorted.order();
-    if let Some((first, second)) = sorted.first_duplicate() {
+    let order = ids.sorted();
+    if let Some((first, second)) = order.first_duplicate(&ids) {
         let id = String::from_utf8_lossy(ids.get(second));
         return Err(vec![if columnar_file {
             Diagnostic::at(
