@@ -44,20 +44,25 @@ fn clean(line: &[u8]) -> &[u8] {
     line.trim_ascii()
 }
 
-/// Calls `each` with every id in a list file, in order; an error from `each` stops the read.
-fn for_each_id(
-    path: &Path,
-    named_by: &str,
-    mut each: impl FnMut(&[u8]) -> Result<(), Diagnostic>,
-) -> Result<(), Diagnostic> {
+/// Reads an id list whole, in order; `which` (train or test) names it in the one message of its
+/// own. Room for the ids is reserved from the file's size (an upper bound on their bytes) and
+/// the lines in its first bytes ([`super::estimated_rows`]).
+fn read_all(path: &Path, named_by: &str, which: &str) -> Result<IdArena, Diagnostic> {
     let mut reader = open(path, named_by)?;
     let mut line = Vec::new();
+    let head = reader.fill_buf().unwrap_or_default();
+    let size = std::fs::metadata(path).map_or(0, |m| m.len());
+    let mut ids = IdArena::default();
+    ids.reserve(
+        super::estimated_rows(size, head),
+        usize::try_from(size).unwrap_or(0),
+    );
     let mut number = 0u64;
     loop {
         line.clear();
         number += 1;
         match reader.read_until(b'\n', &mut line) {
-            Ok(0) => return Ok(()),
+            Ok(0) => return Ok(ids),
             Ok(_) => {
                 let id = clean(&line);
                 if let Some(at) = crate::evidence::control_at(id) {
@@ -68,8 +73,11 @@ fn for_each_id(
                         crate::evidence::CONTROL_IN_ID,
                     ));
                 }
-                if !id.is_empty() {
-                    each(id)?;
+                if !id.is_empty() && ids.push(id).is_none() {
+                    return Err(Diagnostic::file(
+                        path.display().to_string(),
+                        format!("the {which} ids exceed 4 GiB"),
+                    ));
                 }
             }
             Err(e) => {
@@ -85,20 +93,6 @@ fn for_each_id(
             }
         }
     }
-}
-
-/// Reads an id list whole.
-fn read_all(path: &Path, named_by: &str, which: &str) -> Result<IdArena, Diagnostic> {
-    let mut ids = IdArena::default();
-    for_each_id(path, named_by, |id| {
-        ids.push(id).ok_or_else(|| {
-            Diagnostic::file(
-                path.display().to_string(),
-                format!("the {which} ids exceed 4 GiB"),
-            )
-        })
-    })?;
-    Ok(ids)
 }
 
 /// Compares a train id list with a test id list.

@@ -37,7 +37,38 @@ pub struct IdArena {
     ends: Vec<u32>,
 }
 
+/// About how many rows a file of `size` bytes holds, from the lines in its first bytes `head`:
+/// only for reserving capacity, so a wrong guess costs unused (untouched) capacity or a regrowth,
+/// never a result. At most `size / 2` (a row is at least a byte and a line break).
+pub fn estimated_rows(size: u64, head: &[u8]) -> usize {
+    if head.is_empty() {
+        return 0;
+    }
+    let lines = head.iter().filter(|&&b| b == b'\n').count().max(1) as u64;
+    let rows = u128::from(size) * u128::from(lines) / head.len() as u128;
+    usize::try_from(rows.min(u128::from(size / 2))).unwrap_or(usize::MAX)
+}
+
+/// Reserves room for about `rows` more values in `column` where the allocator grants it (a
+/// refusal leaves the column to grow as it fills).
+fn reserve<T>(column: &mut Vec<T>, rows: usize) {
+    let _ = column.try_reserve(rows);
+}
+
+/// An empty column with room for about `rows` values ([`reserve`]).
+pub fn with_room<T>(rows: usize) -> Vec<T> {
+    let mut column = Vec::new();
+    reserve(&mut column, rows);
+    column
+}
+
 impl IdArena {
+    /// Reserves room for about `rows` more ids of `bytes` bytes in all ([`reserve`]).
+    pub fn reserve(&mut self, rows: usize, bytes: usize) {
+        reserve(&mut self.ends, rows);
+        reserve(&mut self.bytes, bytes);
+    }
+
     /// Adds an id; `None` when the arena would pass 4 GiB.
     pub fn push(&mut self, id: &[u8]) -> Option<()> {
         let end = u32::try_from(self.bytes.len() + id.len()).ok()?;
