@@ -108,13 +108,54 @@ impl IdArena {
         let mut entries: Vec<Entry> = (0..self.len())
             .map(|i| Entry::new(key(&self.get(i)[prefix..]), i as u32))
             .collect();
-        // One sort by key, full bytes breaking ties: n log n comparisons whatever the ids share.
-        entries.sort_unstable_by(|a, b| {
-            a.key
-                .cmp(&b.key)
-                .then_with(|| self.tie(self, a.key(), (a.row, b.row), prefix))
-        });
+        if self.nul {
+            // Zero bytes make the padding ambiguous: full bytes break ties.
+            entries.sort_unstable_by(|a, b| {
+                a.key
+                    .cmp(&b.key)
+                    .then_with(|| self.tie(self, a.key(), (a.row, b.row), prefix))
+            });
+        } else {
+            entries.sort_unstable_by_key(|e| e.key);
+            self.refine(&mut entries, prefix);
+        }
         IdOrder { prefix, entries }
+    }
+
+    /// Sorts each run of equal keys (sorted by key at `prefix`) by the next 8 bytes of its ids,
+    /// and so on until keys differ or end inside the ids (no zero bytes: equal ids); the keys at
+    /// `prefix` stay. Ids sharing long prefixes (two dates) are so sorted by keys read in order,
+    /// not by bytes looked up elsewhere: each level is a sort of `u64` keys, n log n in all for
+    /// ids of bounded length. A stack, not recursion: an id may be megabytes long.
+    fn refine(&self, entries: &mut [Entry], prefix: usize) {
+        let mut i = 0;
+        while i < entries.len() {
+            let j = run_end(entries, i);
+            if j - i > 1 && entries[i].key[1] & 0xff != 0 {
+                // Every id of the run goes on past its key. Deeper keys are built in a copy, so
+                // the run's own keys stay those at `prefix`.
+                let mut run = entries[i..j].to_vec();
+                let mut pending = vec![(0, run.len(), prefix + 8)];
+                while let Some((start, end, offset)) = pending.pop() {
+                    for e in &mut run[start..end] {
+                        e.key = Entry::new(key(&self.get(e.row as usize)[offset..]), e.row).key;
+                    }
+                    run[start..end].sort_unstable_by_key(|e| e.key);
+                    let mut a = start;
+                    while a < end {
+                        let b = start + run_end(&run[start..end], a - start);
+                        if b - a > 1 && run[a].key[1] & 0xff != 0 {
+                            pending.push((a, b, offset + 8));
+                        }
+                        a = b;
+                    }
+                }
+                for (e, sorted) in entries[i..j].iter_mut().zip(&run) {
+                    e.row = sorted.row;
+                }
+            }
+            i = j;
+        }
     }
 
     /// The order of row `rows.0` here and row `rows.1` of `other`, two ids with the same `key`
@@ -165,6 +206,16 @@ impl IdArena {
         }
         out
     }
+}
+
+/// The end of the run of entries with the key of `entries[start]`.
+fn run_end(entries: &[Entry], start: usize) -> usize {
+    let k = entries[start].key;
+    start
+        + entries[start..]
+            .iter()
+            .position(|e| e.key != k)
+            .unwrap_or(entries.len() - start)
 }
 
 /// The 8 bytes at the start of `suffix`, big-endian, zero-padded.
