@@ -10,6 +10,8 @@
 
 use std::time::Instant;
 
+mod common;
+
 /// What one file parses into: the columns vetscore keeps for ROC AUC.
 struct Parsed {
     id_bytes: Vec<u8>,
@@ -19,14 +21,8 @@ struct Parsed {
 }
 
 fn parse(path: &str) -> Parsed {
-    let mut reader = csv::ReaderBuilder::new()
-        .has_headers(false)
-        .from_path(path)
-        .unwrap();
-    let mut record = csv::ByteRecord::new();
-    reader.read_byte_record(&mut record).unwrap();
-    let column = |name: &[u8]| record.iter().position(|c| c == name).unwrap();
-    let (id, label, score) = (column(b"id"), column(b"label"), column(b"score"));
+    let (mut reader, mut record, [id, label, score]) =
+        common::open_csv(path, [b"id", b"label", b"score"]);
     let mut parsed = Parsed {
         id_bytes: Vec::new(),
         id_ends: Vec::new(),

@@ -160,7 +160,12 @@ pub fn manifest(data: &[u8]) {
         Ok(raw) => raw,
         Err(d) => return assert_rejected(&d),
     };
-    match manifest::validate(file, raw, std::path::Path::new(".")) {
+    match manifest::validate(
+        file,
+        raw,
+        std::path::Path::new("."),
+        manifest::Readers::default(),
+    ) {
         Ok(models) => {
             assert!(!models.is_empty(), "an accepted manifest has a model");
             for m in &models {

@@ -22,12 +22,8 @@ WORK=${WORK:-/tmp/vetscore-bench-auc}
 mkdir -p "$WORK"
 
 cargo build --release --quiet --locked
-floor=$(cargo bench --locked --quiet --bench auc_floor --no-run --message-format=json |
-    "$PYTHON" -c 'import json, sys
-for line in sys.stdin:
-    m = json.loads(line)
-    if m.get("reason") == "compiler-artifact" and m.get("target", {}).get("name") == "auc_floor" and m.get("executable"):
-        print(m["executable"])')
+. scripts/bench_common.sh
+floor=$(bench_executable auc_floor)
 
 generate() {
     "$PYTHON" - "$1" "$2" <<'PY'

@@ -2,8 +2,14 @@
 # Benchmark: per-example evidence on 10 million predictions and 10 million ids per side,
 # vetscore against the pandas + scikit-learn + statsmodels script a user would otherwise write
 # (benches/evidence_python.py). Checks both give the same numbers, then prints wall time and
-# peak memory of each, the input size and the ratios. Needs python3 with numpy, pandas,
+# peak memory of each, the input size and the ratios, and the floor: a program that only parses
+# the same files on one thread (benches/evidence_floor.rs). Needs python3 with numpy, pandas,
 # scikit-learn and statsmodels; ROWS sets the size (default 10000000).
+#
+# WORK keeps the generated files for the next run (generation is skipped when WORK already holds
+# them); with WORK set, REUSE_PYTHON=1 reuses the Python script's output and time from an earlier
+# run there, and VETSCORE names the vetscore binary to time (default target/release/vetscore), so
+# two builds can be timed in turn on the same files.
 #
 #   PYTHON=/tmp/vs-venv/bin/python bash scripts/bench_evidence.sh
 set -euo pipefail
@@ -13,9 +19,14 @@ ROWS=${ROWS:-10000000}
 work=${WORK:-$(mktemp -d)}
 trap '[ -z "${WORK:-}" ] && rm -rf "$work"' EXIT
 
-cargo build --release --quiet --locked
+VETSCORE=${VETSCORE:-target/release/vetscore}
+mkdir -p "$work"
 
-"$PYTHON" - "$work" "$ROWS" <<'PY'
+cargo build --release --quiet --locked
+. scripts/bench_common.sh
+floor=$(bench_executable evidence_floor)
+
+[ -f "$work/manifest.yaml" ] || "$PYTHON" - "$work" "$ROWS" <<'PY'
 import hashlib, sys
 import numpy as np
 work, n = sys.argv[1], int(sys.argv[2])
@@ -62,11 +73,23 @@ models:
 """)
 PY
 
-measure() { /usr/bin/time -f "%e %M" "$@" 2> "$work/time" > "$work/out" || true; tail -n 1 "$work/time"; }
-read -r rs_s rs_kb < <(measure target/release/vetscore check --today 2026-12-01 --root "$work" --json - "$work/manifest.yaml")
+measure() {
+    /usr/bin/time -f "%e %M %U %S" "$@" 2> "$work/time" > "$work/out" || true
+    tail -n 1 "$work/time" | cut -d' ' -f3,4 > "$work/cpu"
+    tail -n 1 "$work/time" | cut -d' ' -f1,2
+}
+read -r rs_s rs_kb < <(measure "$VETSCORE" check --today 2026-12-01 --root "$work" --json - "$work/manifest.yaml")
 cp "$work/out" "$work/vetscore.json"
-read -r py_s py_kb < <(measure "$PYTHON" benches/evidence_python.py "$work")
-cp "$work/out" "$work/python.json"
+read -r rs_user rs_sys < <(tail -n 1 "$work/cpu")
+if [ -n "${REUSE_PYTHON:-}" ] && [ -f "$work/python.time" ] && [ -f "$work/python.json" ]; then
+    read -r py_s py_kb < "$work/python.time"
+else
+    read -r py_s py_kb < <(measure "$PYTHON" benches/evidence_python.py "$work")
+    cp "$work/out" "$work/python.json"
+    echo "$py_s $py_kb" > "$work/python.time"
+fi
+read -r fl_s fl_kb < <(measure "$floor" "$work/predictions.csv" "$work/baseline.csv" -- "$work/test_ids.txt" "$work/train_ids.txt")
+fl_parse=$("$PYTHON" -c 'import json, sys; print(json.load(open(sys.argv[1]))["seconds"])' "$work/out")
 
 "$PYTHON" - "$work" <<'PY'
 import json, sys
@@ -91,6 +114,8 @@ print("same numbers: " + ", ".join(f"{k} {v[1]}" for k, v in checks.items() if k
 PY
 size=$(du -cb "$work"/predictions.csv "$work"/baseline.csv "$work"/train_ids.txt "$work"/test_ids.txt | tail -n 1 | cut -f1)
 echo "input: $ROWS predictions per side and $ROWS ids per list, $((size / 1048576)) MiB"
-echo "vetscore: ${rs_s} s, peak $((rs_kb / 1024)) MiB"
+echo "vetscore: ${rs_s} s wall, ${rs_user} s user + ${rs_sys} s system CPU, peak $((rs_kb / 1024)) MiB"
 echo "python:   ${py_s} s, peak $((py_kb / 1024)) MiB"
+echo "floor:    ${fl_parse} s parsing (${fl_s} s with start and exit), peak $((fl_kb / 1024)) MiB"
 "$PYTHON" -c "print(f'ratio (python / vetscore): {float(\"$py_s\") / max(float(\"$rs_s\"), 0.001):.1f}x time, {float(\"$py_kb\") / float(\"$rs_kb\"):.1f}x memory; vetscore peak / input size: {float(\"$rs_kb\") * 1024 / float(\"$size\"):.2f}')"
+"$PYTHON" -c "print(f'vetscore / floor: {float(\"$rs_s\") / max(float(\"$fl_parse\"), 0.001):.2f}x the bare parse time; CPU / wall: {(float(\"$rs_user\") + float(\"$rs_sys\")) / max(float(\"$rs_s\"), 0.001):.2f}')"

@@ -76,8 +76,13 @@ impl Case {
 fn run(yaml: &str) -> ModelAssessment {
     let raw: RawManifest =
         input::parse("gen.yaml", yaml, Syntax::Yaml).unwrap_or_else(|d| panic!("{d:?}\n{yaml}"));
-    let models = manifest::validate("gen.yaml", raw, std::path::Path::new("."))
-        .unwrap_or_else(|d| panic!("{d:?}\n{yaml}"));
+    let models = manifest::validate(
+        "gen.yaml",
+        raw,
+        std::path::Path::new("."),
+        manifest::Readers::default(),
+    )
+    .unwrap_or_else(|d| panic!("{d:?}\n{yaml}"));
     let today = jiff::civil::date(2026, 12, 1);
     let mut a = evaluate(models, &[], &Policy::defaults(), None, None, today);
     a.models.remove(0)

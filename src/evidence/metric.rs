@@ -695,7 +695,7 @@ mod tests {
         for &r in rows {
             ids.push(format!("r{r:04}").as_bytes()).unwrap();
         }
-        let order = ids.sorted().order();
+        let order = ids.sorted();
         PredictionSet {
             file: "p.csv".into(),
             ids,

@@ -17,6 +17,8 @@ pub mod read;
 
 pub use read::read_predictions;
 
+use std::cmp::Ordering;
+
 use sha2::{Digest, Sha256};
 
 /// Why an id with a control character is refused: a line break or tab inside an id (possible in
@@ -35,12 +37,47 @@ pub fn control_at(id: &[u8]) -> Option<usize> {
 pub struct IdArena {
     bytes: Vec<u8>,
     ends: Vec<u32>,
+    /// Whether an id holds a zero byte (the readers refuse them; the arena does not), which
+    /// makes a key's zero padding ambiguous ([`IdArena::tie`]).
+    nul: bool,
+}
+
+/// About how many rows a file of `size` bytes holds, from the lines in its first bytes `head`:
+/// only for reserving capacity, so a wrong guess costs unused (untouched) capacity or a regrowth,
+/// never a result. At most `size / 2` (a row is at least a byte and a line break).
+pub fn estimated_rows(size: u64, head: &[u8]) -> usize {
+    if head.is_empty() {
+        return 0;
+    }
+    let lines = head.iter().filter(|&&b| b == b'\n').count().max(1) as u64;
+    let rows = u128::from(size) * u128::from(lines) / head.len() as u128;
+    usize::try_from(rows.min(u128::from(size / 2))).unwrap_or(usize::MAX)
+}
+
+/// Reserves room for about `rows` more values in `column` where the allocator grants it (a
+/// refusal leaves the column to grow as it fills).
+fn reserve<T>(column: &mut Vec<T>, rows: usize) {
+    let _ = column.try_reserve(rows);
+}
+
+/// An empty column with room for about `rows` values ([`reserve`]).
+pub fn with_room<T>(rows: usize) -> Vec<T> {
+    let mut column = Vec::new();
+    reserve(&mut column, rows);
+    column
 }
 
 impl IdArena {
+    /// Reserves room for about `rows` more ids of `bytes` bytes in all ([`reserve`]).
+    pub fn reserve(&mut self, rows: usize, bytes: usize) {
+        reserve(&mut self.ends, rows);
+        reserve(&mut self.bytes, bytes);
+    }
+
     /// Adds an id; `None` when the arena would pass 4 GiB.
     pub fn push(&mut self, id: &[u8]) -> Option<()> {
         let end = u32::try_from(self.bytes.len() + id.len()).ok()?;
+        self.nul |= id.contains(&0);
         self.bytes.extend_from_slice(id);
         self.ends.push(end);
         Some(())
@@ -59,27 +96,77 @@ impl IdArena {
         &self.bytes[start..self.ends[i] as usize]
     }
 
-    /// The ids sorted, for fast lookups.
+    /// The ids sorted, built once per list and kept with it for the duplicate check, the
+    /// fingerprint, pairing and leakage.
     ///
     /// Comparing ids through the arena is slow for millions of rows, so each id gets a key: the
     /// 8 bytes after the prefix every id shares, big-endian and zero-padded. Ordering by key
     /// agrees with byte order wherever keys differ; runs of equal keys are then sorted by their
     /// full bytes.
-    pub fn sorted(&self) -> SortedIds<'_> {
+    pub fn sorted(&self) -> IdOrder {
         let prefix = self.common_prefix();
-        let mut keyed: Vec<(u64, u32)> = (0..self.len())
-            .map(|i| (key(&self.get(i)[prefix..]), i as u32))
+        let mut entries: Vec<Entry> = (0..self.len())
+            .map(|i| Entry::new(key(&self.get(i)[prefix..]), i as u32))
             .collect();
-        // One sort by key, full bytes breaking ties: n log n comparisons whatever the ids share.
-        keyed.sort_unstable_by(|a, b| {
-            a.0.cmp(&b.0)
-                .then_with(|| self.get(a.1 as usize).cmp(self.get(b.1 as usize)))
-        });
-        SortedIds {
-            arena: self,
-            prefix,
-            keyed,
+        if self.nul {
+            // Zero bytes make the padding ambiguous: full bytes break ties.
+            entries.sort_unstable_by(|a, b| {
+                a.key
+                    .cmp(&b.key)
+                    .then_with(|| self.tie(self, a.key(), (a.row, b.row), prefix))
+            });
+        } else {
+            entries.sort_unstable_by_key(|e| e.key);
+            self.refine(&mut entries, prefix);
         }
+        IdOrder { prefix, entries }
+    }
+
+    /// Sorts each run of equal keys (sorted by key at `prefix`) by the next 8 bytes of its ids,
+    /// and so on until keys differ or end inside the ids (no zero bytes: equal ids); the keys at
+    /// `prefix` stay. Ids sharing long prefixes (two dates) are so sorted by keys read in order,
+    /// not by bytes looked up elsewhere: each level is a sort of `u64` keys, n log n in all for
+    /// ids of bounded length. A stack, not recursion: an id may be megabytes long.
+    fn refine(&self, entries: &mut [Entry], prefix: usize) {
+        let mut i = 0;
+        while i < entries.len() {
+            let j = run_end(entries, i);
+            if j - i > 1 && entries[i].key[1] & 0xff != 0 {
+                // Every id of the run goes on past its key. Deeper keys are built in a copy, so
+                // the run's own keys stay those at `prefix`.
+                let mut run = entries[i..j].to_vec();
+                let mut pending = vec![(0, run.len(), prefix + 8)];
+                while let Some((start, end, offset)) = pending.pop() {
+                    for e in &mut run[start..end] {
+                        e.key = Entry::new(key(&self.get(e.row as usize)[offset..]), e.row).key;
+                    }
+                    run[start..end].sort_unstable_by_key(|e| e.key);
+                    let mut a = start;
+                    while a < end {
+                        let b = start + run_end(&run[start..end], a - start);
+                        if b - a > 1 && run[a].key[1] & 0xff != 0 {
+                            pending.push((a, b, offset + 8));
+                        }
+                        a = b;
+                    }
+                }
+                for (e, sorted) in entries[i..j].iter_mut().zip(&run) {
+                    e.row = sorted.row;
+                }
+            }
+            i = j;
+        }
+    }
+
+    /// The order of row `rows.0` here and row `rows.1` of `other`, two ids with the same `key`
+    /// past their first `shared` bytes (which they share). A key whose last byte is zero ends
+    /// both ids inside it (ids without zero bytes): they are equal, with no bytes read.
+    /// Otherwise the bytes past `shared` decide.
+    fn tie(&self, other: &IdArena, key: u64, rows: (u32, u32), shared: usize) -> Ordering {
+        if key & 0xff == 0 && !self.nul && !other.nul {
+            return Ordering::Equal;
+        }
+        self.get(rows.0 as usize)[shared..].cmp(&other.get(rows.1 as usize)[shared..])
     }
 
     fn common_prefix(&self) -> usize {
@@ -104,9 +191,9 @@ impl IdArena {
 
     /// The test fingerprint: `sha256:` + the SHA-256 of the sorted ids joined by newlines.
     /// In Python: `"sha256:" + hashlib.sha256("\n".join(sorted(ids)).encode()).hexdigest()`.
-    pub fn fingerprint(&self, order: &[u32]) -> String {
+    pub fn fingerprint(&self, order: &IdOrder) -> String {
         let mut hasher = Sha256::new();
-        for (k, &i) in order.iter().enumerate() {
+        for (k, i) in order.rows().enumerate() {
             if k > 0 {
                 hasher.update(b"\n");
             }
@@ -121,6 +208,16 @@ impl IdArena {
     }
 }
 
+/// The end of the run of entries with the key of `entries[start]`.
+fn run_end(entries: &[Entry], start: usize) -> usize {
+    let k = entries[start].key;
+    start
+        + entries[start..]
+            .iter()
+            .position(|e| e.key != k)
+            .unwrap_or(entries.len() - start)
+}
+
 /// The 8 bytes at the start of `suffix`, big-endian, zero-padded.
 fn key(suffix: &[u8]) -> u64 {
     let mut bytes = [0u8; 8];
@@ -129,49 +226,150 @@ fn key(suffix: &[u8]) -> u64 {
     u64::from_be_bytes(bytes)
 }
 
-/// Ids in sorted order with their sort keys, for membership tests by binary search.
-pub struct SortedIds<'a> {
-    arena: &'a IdArena,
-    prefix: usize,
-    keyed: Vec<(u64, u32)>,
+/// An id's sort key and its row, as three `u32` (12 bytes, where a `(u64, u32)` pair takes 16):
+/// ten million ids need 120 MB of them.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+struct Entry {
+    /// The key's high and low halves: ordering them is ordering the key.
+    key: [u32; 2],
+    row: u32,
 }
 
-impl SortedIds<'_> {
+impl Entry {
+    fn new(key: u64, row: u32) -> Entry {
+        Entry {
+            key: [(key >> 32) as u32, key as u32],
+            row,
+        }
+    }
+
+    fn key(self) -> u64 {
+        (u64::from(self.key[0]) << 32) | u64::from(self.key[1])
+    }
+}
+
+/// The ids of an [`IdArena`] in byte order (for UTF-8, code-point order, as Python's `sorted` on
+/// strings), each with its sort key ([`IdArena::sorted`]).
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct IdOrder {
+    /// How many leading bytes every id shares; keys are the 8 bytes after them.
+    prefix: usize,
+    entries: Vec<Entry>,
+}
+
+impl IdOrder {
     /// The first id that appears twice, as (earlier row, later row). Only neighbours with equal
     /// keys need their bytes compared.
-    pub fn first_duplicate(&self) -> Option<(usize, usize)> {
-        self.keyed
+    pub fn first_duplicate(&self, ids: &IdArena) -> Option<(usize, usize)> {
+        self.entries
             .windows(2)
             .find(|w| {
-                w[0].0 == w[1].0
-                    && self.arena.get(w[0].1 as usize) == self.arena.get(w[1].1 as usize)
+                w[0].key == w[1].key
+                    && ids.tie(ids, w[0].key(), (w[0].row, w[1].row), self.prefix)
+                        == Ordering::Equal
             })
-            .map(|w| (w[0].1.min(w[1].1) as usize, w[0].1.max(w[1].1) as usize))
+            .map(|w| {
+                (
+                    w[0].row.min(w[1].row) as usize,
+                    w[0].row.max(w[1].row) as usize,
+                )
+            })
     }
 
-    /// Row indices in id order (byte order, which for UTF-8 is code-point order, as Python's
-    /// `sorted` on strings).
+    /// Row indices in id order.
+    pub fn rows(&self) -> impl Iterator<Item = u32> + '_ {
+        self.entries.iter().map(|e| e.row)
+    }
+
+    /// Row indices in id order, collected.
     pub fn order(&self) -> Vec<u32> {
-        self.keyed.iter().map(|&(_, i)| i).collect()
+        self.rows().collect()
     }
 
-    /// Whether `id` is among the ids.
-    pub fn contains(&self, id: &[u8]) -> bool {
-        if self.keyed.is_empty() || id.len() < self.prefix {
-            return false;
+    pub fn len(&self) -> usize {
+        self.entries.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.entries.is_empty()
+    }
+}
+
+/// One step of walking two sorted id lists together ([`walk`]).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord)]
+pub enum Step {
+    /// An id in both lists: its row in the first and in the second.
+    Both(u32, u32),
+    /// The row of an id of the first list that the second does not hold.
+    OnlyFirst(u32),
+    /// The row of an id of the second list that the first does not hold.
+    OnlySecond(u32),
+}
+
+/// Walks two sorted id lists together in byte order: every id of the first list once, as
+/// [`Step::Both`] with the row of the equal id in the second list or as [`Step::OnlyFirst`];
+/// every id of the second list that no id of the first equals as [`Step::OnlySecond`]. An id
+/// repeated in the first list is paired each time; the second list's ids are taken as unique
+/// (a repeat past the first is reported as [`Step::OnlySecond`]).
+///
+/// n + m steps, each comparing the two keys (read in order, next to the rows) and the bytes only
+/// where the keys are equal, so ids sharing long prefixes cost no more than any others. Keys are
+/// taken past the prefix both lists share: where one list's ids share more than that, its keys
+/// are rebuilt as the walk goes.
+pub fn walk(
+    (a, a_order): (&IdArena, &IdOrder),
+    (b, b_order): (&IdArena, &IdOrder),
+    mut each: impl FnMut(Step),
+) {
+    let shared = match (a_order.entries.first(), b_order.entries.first()) {
+        (Some(x), Some(y)) => {
+            let (x, y) = (
+                &a.get(x.row as usize)[..a_order.prefix],
+                &b.get(y.row as usize)[..b_order.prefix],
+            );
+            x.iter().zip(y).take_while(|(p, q)| p == q).count()
         }
-        let shared = &self.arena.get(self.keyed[0].1 as usize)[..self.prefix];
-        if &id[..self.prefix] != shared {
-            return false;
+        _ => 0,
+    };
+    let key_at = |ids: &IdArena, order: &IdOrder, k: usize| {
+        let entry = order.entries[k];
+        if order.prefix == shared {
+            entry.key()
+        } else {
+            key(&ids.get(entry.row as usize)[shared..])
         }
-        // The list is in (key, bytes) order, which is byte order: one binary search on both,
-        // so ids sharing a key (long common prefixes) cost log n comparisons, not a scan.
-        let k = key(&id[self.prefix..]);
-        self.keyed
-            .binary_search_by(|&(kk, i)| {
-                kk.cmp(&k).then_with(|| self.arena.get(i as usize).cmp(id))
-            })
-            .is_ok()
+    };
+    let (mut i, mut j, mut b_paired) = (0, 0, false);
+    let (an, bn) = (a_order.entries.len(), b_order.entries.len());
+    while i < an && j < bn {
+        let (ra, rb) = (a_order.entries[i].row, b_order.entries[j].row);
+        let (ka, kb) = (key_at(a, a_order, i), key_at(b, b_order, j));
+        let ordering = ka.cmp(&kb).then_with(|| a.tie(b, ka, (ra, rb), shared));
+        match ordering {
+            Ordering::Equal => {
+                each(Step::Both(ra, rb));
+                i += 1;
+                b_paired = true;
+            }
+            Ordering::Less => {
+                each(Step::OnlyFirst(ra));
+                i += 1;
+            }
+            Ordering::Greater => {
+                if !b_paired {
+                    each(Step::OnlySecond(rb));
+                }
+                j += 1;
+                b_paired = false;
+            }
+        }
+    }
+    for e in &a_order.entries[i..] {
+        each(Step::OnlyFirst(e.row));
+    }
+    let rest = if b_paired { j + 1 } else { j };
+    for e in b_order.entries.get(rest..).unwrap_or_default() {
+        each(Step::OnlySecond(e.row));
     }
 }
 
@@ -204,8 +402,8 @@ pub struct PredictionSet {
     pub positive: Option<u32>,
     /// `sha256:` hash of the sorted ids.
     pub fingerprint: String,
-    /// Row indices in id order.
-    pub order: Vec<u32>,
+    /// The ids in byte order with their sort keys.
+    pub order: IdOrder,
 }
 
 impl PredictionSet {
@@ -217,28 +415,12 @@ impl PredictionSet {
 /// Pairs the rows of two prediction sets by id: `(row in a, row in b)` for every id in both,
 /// and the count of ids found in only one of them.
 pub fn pair_by_id(a: &PredictionSet, b: &PredictionSet) -> (Vec<(u32, u32)>, usize) {
-    let (mut i, mut j) = (0, 0);
     let mut pairs = Vec::with_capacity(a.rows().min(b.rows()));
     let mut unmatched = 0;
-    while i < a.order.len() && j < b.order.len() {
-        let (ra, rb) = (a.order[i], b.order[j]);
-        match a.ids.get(ra as usize).cmp(b.ids.get(rb as usize)) {
-            std::cmp::Ordering::Equal => {
-                pairs.push((ra, rb));
-                i += 1;
-                j += 1;
-            }
-            std::cmp::Ordering::Less => {
-                unmatched += 1;
-                i += 1;
-            }
-            std::cmp::Ordering::Greater => {
-                unmatched += 1;
-                j += 1;
-            }
-        }
-    }
-    unmatched += (a.order.len() - i) + (b.order.len() - j);
+    walk((&a.ids, &a.order), (&b.ids, &b.order), |step| match step {
+        Step::Both(ra, rb) => pairs.push((ra, rb)),
+        Step::OnlyFirst(_) | Step::OnlySecond(_) => unmatched += 1,
+    });
     (pairs, unmatched)
 }
 
@@ -252,19 +434,30 @@ mod tests {
         for id in ["b", "a", "c"] {
             ids.push(id.as_bytes()).unwrap();
         }
-        let order = ids.sorted().order();
+        let order = ids.sorted();
         // sha256 of the bytes "a\nb\nc", computed with Python 3.11 hashlib:
         // hashlib.sha256(b"a\nb\nc").hexdigest()
         assert_eq!(
             ids.fingerprint(&order),
             "sha256:ea7fb08b7a2dc4619ffb7c7bb38d95a2047935fa165d71b12efd3852a2e6d0cc"
         );
-        assert_eq!(ids.sorted().first_duplicate(), None);
+        assert_eq!(order.first_duplicate(&ids), None);
+    }
+
+    /// Whether `id` is among `ids`, by walking a one-id list beside them.
+    fn contains(ids: &IdArena, order: &IdOrder, id: &[u8]) -> bool {
+        let mut one = IdArena::default();
+        one.push(id).unwrap();
+        let mut found = false;
+        walk((&one, &one.sorted()), (ids, order), |step| {
+            found |= matches!(step, Step::Both(..));
+        });
+        found
     }
 
     /// Ids that share a long prefix and all fall on two keys (two dates), with random suffixes:
     /// membership once cost a scan of every id with the same key (200k ids took 39 s). This just
-    /// has to end; the order must still be byte order and every id must be found.
+    /// has to end; the order must still be byte order and every id must be paired with itself.
     #[test]
     fn ids_sharing_long_prefixes_sort_and_look_up_in_n_log_n() {
         let mut ids = IdArena::default();
@@ -290,9 +483,14 @@ mod tests {
                 .windows(2)
                 .all(|w| ids.get(w[0] as usize) < ids.get(w[1] as usize))
         );
-        assert!((0..n).all(|i| sorted.contains(ids.get(i))));
-        assert!(!sorted.contains(b"2026-11-29/plant-A/row-x"));
-        assert_eq!(sorted.first_duplicate(), None);
+        let mut paired = 0;
+        walk((&ids, &sorted), (&ids, &sorted), |step| {
+            assert!(matches!(step, Step::Both(a, b) if a == b), "{step:?}");
+            paired += 1;
+        });
+        assert_eq!(paired, n);
+        assert!(!contains(&ids, &sorted, b"2026-11-29/plant-A/row-x"));
+        assert_eq!(sorted.first_duplicate(&ids), None);
     }
 
     #[test]
@@ -324,10 +522,106 @@ mod tests {
         assert_eq!(sorted, expected);
         let lookup = ids.sorted();
         for w in words {
-            assert!(lookup.contains(w.as_bytes()));
+            assert!(contains(&ids, &lookup, w.as_bytes()));
         }
         for absent in ["row-3", "row-", "col-1", "row-10000000\u{0}\u{0}"] {
-            assert!(!lookup.contains(absent.as_bytes()), "{absent}");
+            assert!(!contains(&ids, &lookup, absent.as_bytes()), "{absent}");
+        }
+    }
+
+    /// Ids as hostile inputs give them: long shared prefixes on two dates (so most keys past the
+    /// shared prefix are equal), one list's prefix a prefix of another's, suffixes of unequal
+    /// length with bytes equal to the key's zero padding.
+    pub(crate) fn hostile_id() -> impl proptest::strategy::Strategy<Value = String> {
+        use proptest::strategy::Strategy;
+        let prefixes = [
+            "2026-11-29/plant-A/row-0000",
+            "2026-11-30/plant-B/row-0000",
+            "2026-11-29/plant-A/row-00",
+            "",
+        ];
+        (0..prefixes.len(), "[01z\u{0}]{0,10}")
+            .prop_map(move |(p, s)| format!("{}{s}", prefixes[p]))
+    }
+
+    fn arena(ids: &[String]) -> IdArena {
+        let mut arena = IdArena::default();
+        for id in ids {
+            arena.push(id.as_bytes()).unwrap();
+        }
+        arena
+    }
+
+    proptest::proptest! {
+        /// Sorting, the duplicate check and the merge walk against the obvious: a sorted `Vec`,
+        /// a `BTreeMap` of counts and a `HashMap` from id to row.
+        #[test]
+        fn sorting_and_walking_agree_with_sets(
+            first in proptest::collection::vec(hostile_id(), 0..60),
+            second in proptest::collection::vec(hostile_id(), 0..60),
+            from_one_prefix in proptest::bool::ANY,
+            with_nul in proptest::bool::ANY,
+        ) {
+            use std::collections::{BTreeMap, BTreeSet, HashMap, HashSet};
+            // Without zero bytes (as the readers give them) ties on a key are settled unread.
+            let strip = |ids: Vec<String>| -> Vec<String> {
+                if with_nul { ids } else { ids.into_iter().map(|id| id.replace('\0', "z")).collect() }
+            };
+            let (first, second) = (strip(first), strip(second));
+            // Half the cases hold ids of one date only, whose shared prefix is long.
+            let first: Vec<String> = if from_one_prefix {
+                first.into_iter().filter(|id| id.starts_with("2026-11-29")).collect()
+            } else {
+                first
+            };
+            // The second list's ids unique, as `walk` takes them (first occurrence kept).
+            let mut seen = HashSet::new();
+            let second: Vec<String> = second.into_iter().filter(|id| seen.insert(id.clone())).collect();
+            let (a, b) = (arena(&first), arena(&second));
+            let (a_order, b_order) = (a.sorted(), b.sorted());
+
+            let mut expected = first.clone();
+            expected.sort();
+            let got: Vec<String> = a_order
+                .rows()
+                .map(|r| String::from_utf8(a.get(r as usize).to_vec()).unwrap())
+                .collect();
+            proptest::prop_assert_eq!(got, expected);
+
+            let mut counts: BTreeMap<&str, usize> = BTreeMap::new();
+            for id in &first {
+                *counts.entry(id).or_default() += 1;
+            }
+            let smallest_repeated = counts.iter().find(|&(_, &c)| c > 1).map(|(id, _)| *id);
+            match (a_order.first_duplicate(&a), smallest_repeated) {
+                (None, None) => {}
+                (Some((x, y)), Some(id)) => {
+                    proptest::prop_assert!(x < y);
+                    proptest::prop_assert_eq!(&first[x], id);
+                    proptest::prop_assert_eq!(&first[y], id);
+                }
+                (got, want) => proptest::prop_assert!(false, "{got:?} against {want:?}"),
+            }
+
+            let row_in_second: HashMap<&str, u32> =
+                second.iter().enumerate().map(|(i, id)| (id.as_str(), i as u32)).collect();
+            let in_first: HashSet<&str> = first.iter().map(String::as_str).collect();
+            let mut want = BTreeSet::new();
+            for (i, id) in first.iter().enumerate() {
+                want.insert(match row_in_second.get(id.as_str()) {
+                    Some(&j) => Step::Both(i as u32, j),
+                    None => Step::OnlyFirst(i as u32),
+                });
+            }
+            for (j, id) in second.iter().enumerate() {
+                if !in_first.contains(id.as_str()) {
+                    want.insert(Step::OnlySecond(j as u32));
+                }
+            }
+            let mut steps = Vec::new();
+            walk((&a, &a_order), (&b, &b_order), |step| steps.push(step));
+            proptest::prop_assert_eq!(steps.len(), want.len());
+            proptest::prop_assert_eq!(steps.into_iter().collect::<BTreeSet<_>>(), want);
         }
     }
 }

@@ -167,6 +167,8 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
     let named_parquet = path
         .extension()
         .is_some_and(|e| e.eq_ignore_ascii_case("parquet"));
+    // About how many rows a CSV file holds, to reserve its columns once ([`super::with_room`]).
+    let mut rows_hint = 0;
     let mut source = if named_parquet {
         None
     } else {
@@ -174,6 +176,8 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
             crate::opener::open(path, crate::opener::Kind::Predictions).map_err(refused)?;
         let mut buffered = std::io::BufReader::with_capacity(1 << 20, handle);
         let head = std::io::BufRead::fill_buf(&mut buffered).unwrap_or_default();
+        let size = std::fs::metadata(path).map_or(0, |m| m.len());
+        rows_hint = super::estimated_rows(size, head);
         (!columnar::looks_like_parquet(head)).then(|| {
             csv::ReaderBuilder::new()
                 .has_headers(true)
@@ -282,13 +286,15 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
         (None, None) => return Err(refused("no reader for it".to_owned())),
     };
     let mut ids = IdArena::default();
+    ids.reserve(rows_hint, 0);
+    let reserved = |present: bool| if present { rows_hint } else { 0 };
     let columns = if regression {
         let (tc, pc) = (
             column("target").unwrap_or(0),
             column("prediction").unwrap_or(0),
         );
-        let mut target = Vec::new();
-        let mut prediction = Vec::new();
+        let mut target = super::with_room(reserved(true));
+        let mut prediction = super::with_room(reserved(true));
         read_rows(&mut rows, &mut problems, |record, line, p| {
             let (Some(t), Some(y)) = (
                 number(record, tc, line, "target", p),
@@ -311,10 +317,10 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
             .enumerate()
             .filter_map(|(i, h)| h.strip_prefix(b"prob_").map(|c| (c.to_vec(), i)))
             .collect();
-        let mut actual = Vec::new();
-        let mut predicted: Vec<u32> = Vec::new();
-        let mut score: Vec<f64> = Vec::new();
-        let mut prob_class: Vec<f64> = Vec::new();
+        let mut actual = super::with_room(reserved(true));
+        let mut predicted: Vec<u32> = super::with_room(reserved(pred_col.is_some()));
+        let mut score: Vec<f64> = super::with_room(reserved(score_col.is_some()));
+        let mut prob_class: Vec<f64> = super::with_room(reserved(!prob_cols.is_empty()));
         read_rows(&mut rows, &mut problems, |record, line, p| {
             let Some(a) = class(&mut classes, record, label_col, line, "label", p) else {
                 return false;
@@ -400,9 +406,8 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
     if !problems.list.is_empty() {
         return Err(problems.list);
     }
-    let sorted = ids.sorted();
-    let order = sorted.order();
-    if let Some((first, second)) = sorted.first_duplicate() {
+    let order = ids.sorted();
+    if let Some((first, second)) = order.first_duplicate(&ids) {
         let id = String::from_utf8_lossy(ids.get(second));
         return Err(vec![if columnar_file {
             Diagnostic::at(

@@ -18,7 +18,7 @@ use serde::{Deserialize, Serialize};
 use crate::diag::Diagnostic;
 use crate::input::{self, Syntax};
 
-pub use validate::{MAX_ROWS, validate};
+pub use validate::{MAX_ROWS, Readers, validate};
 
 /// The manifest format version this build reads.
 pub const FORMAT_VERSION: u32 = 1;
@@ -267,8 +267,18 @@ pub struct Baseline {
 }
 
 /// Reads and validates one manifest file (`-` is standard input, named
-/// [`crate::opener::STDIN_NAME`]); the files it names must lie inside `root`.
+/// [`crate::opener::STDIN_NAME`]); the files it names must lie inside `root`. A model's
+/// per-example files are read concurrently ([`load_with`]).
 pub fn load(path: &Path, root: &Path) -> Result<Vec<Model>, Vec<Diagnostic>> {
+    load_with(path, root, Readers::Concurrent)
+}
+
+/// [`load`], reading a model's per-example files as `readers` says; the result is the same.
+pub fn load_with(
+    path: &Path,
+    root: &Path,
+    readers: Readers,
+) -> Result<Vec<Model>, Vec<Diagnostic>> {
     let stdin = path == Path::new("-");
     let (file, text) = if stdin {
         let text = crate::opener::read_text(None, crate::opener::Kind::StdinManifest)
@@ -280,7 +290,7 @@ pub fn load(path: &Path, root: &Path) -> Result<Vec<Model>, Vec<Diagnostic>> {
         (path.display().to_string(), text)
     };
     let raw: raw::RawManifest = input::parse(&file, &text, Syntax::detect(path, &text))?;
-    validate(&file, raw, root)
+    validate(&file, raw, root, readers)
 }
 
 /// The JSON Schema of the manifest format.

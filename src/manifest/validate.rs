@@ -17,6 +17,10 @@ use super::{
 use crate::diag::{Diagnostic, Diagnostics, Place};
 
 mod out_of_fold;
+mod reads;
+
+pub use reads::Readers;
+use reads::{PredictionsRead, Prefetched};
 
 /// A proportion score may be rounded by the writer; it is accepted as k/n when it lies within
 /// half a unit of the fourth decimal of k/n (scores are commonly printed with four decimals).
@@ -28,8 +32,14 @@ const PROPORTION_ROUNDING: f64 = 5e-5;
 pub const MAX_ROWS: u64 = 1 << 53;
 
 /// Validates a parsed manifest. `file` is used in diagnostics; files the manifest names must
-/// lie inside `root`.
-pub fn validate(file: &str, raw: RawManifest, root: &Path) -> Result<Vec<Model>, Vec<Diagnostic>> {
+/// lie inside `root`; `readers` says whether a model's per-example files are read concurrently
+/// (the results are the same either way).
+pub fn validate(
+    file: &str,
+    raw: RawManifest,
+    root: &Path,
+    readers: Readers,
+) -> Result<Vec<Model>, Vec<Diagnostic>> {
     let mut out = Diagnostics::default();
     out.extend(crate::diag::format_version(
         file,
@@ -51,6 +61,8 @@ pub fn validate(file: &str, raw: RawManifest, root: &Path) -> Result<Vec<Model>,
             file,
             root,
             out: &mut out,
+            readers,
+            prefetched: Prefetched::default(),
         };
         if let Some(model) = v.model(&format!("models[{i}]"), spanned) {
             models.push(model);
@@ -70,6 +82,16 @@ struct Validator<'a> {
     file: &'a str,
     root: &'a Path,
     out: &'a mut Diagnostics,
+    readers: Readers,
+    /// The current model's files, read ahead ([`reads`]).
+    prefetched: Prefetched,
+}
+
+/// Why a file named in the manifest is not confined to the check's root directory.
+enum Unconfined {
+    /// The root cannot be resolved (the reason).
+    Root(String),
+    Outside,
 }
 
 impl Validator<'_> {
@@ -104,6 +126,20 @@ impl Validator<'_> {
         let place = Place::of(&spanned.referenced);
         let raw = spanned.value;
         let before = self.out.len();
+        self.prefetch(path, &raw);
+        let model = self.model_read(path, place, raw, before);
+        // Whatever was read ahead and not asked for (the model's own file failed) goes now.
+        self.prefetched = Prefetched::default();
+        model
+    }
+
+    fn model_read(
+        &mut self,
+        path: &str,
+        place: Place,
+        raw: RawModel,
+        before: usize,
+    ) -> Option<Model> {
         if raw.name.trim().is_empty() {
             self.problem(
                 place,
@@ -196,29 +232,21 @@ impl Validator<'_> {
     /// line of a file elsewhere on the CI machine would leak it into the job's log. A file that
     /// does not exist is left for its reader to report.
     fn resolve(&mut self, place: Place, key: &str, name: &str) -> Option<std::path::PathBuf> {
-        let path = Path::new(self.file)
-            .parent()
-            .unwrap_or(Path::new("."))
-            .join(name);
-        // A root that cannot be resolved confines nothing: refuse rather than allow any path.
-        let root = match self.root.canonicalize() {
-            Ok(root) => root,
-            Err(e) => {
+        match self.confined(name) {
+            Ok(path) => Some(path),
+            Err(Unconfined::Root(reason)) => {
                 self.out.push(Diagnostic::at(
                     self.file,
                     place,
                     key,
                     format!(
-                        "the check's root directory {} cannot be resolved ({}), so {name:?} cannot be confined to it",
+                        "the check's root directory {} cannot be resolved ({reason}), so {name:?} cannot be confined to it",
                         self.root.display(),
-                        crate::input::io_reason(&e)
                     ),
                 ));
-                return None;
+                None
             }
-        };
-        match path.canonicalize() {
-            Ok(real) if !real.starts_with(&root) => {
+            Err(Unconfined::Outside) => {
                 self.out.push(
                     Diagnostic::at(
                         self.file,
@@ -232,7 +260,23 @@ impl Validator<'_> {
                 );
                 None
             }
-            _ => Some(path),
+        }
+    }
+
+    /// [`Self::resolve`] without the diagnostic.
+    fn confined(&self, name: &str) -> Result<std::path::PathBuf, Unconfined> {
+        let path = Path::new(self.file)
+            .parent()
+            .unwrap_or(Path::new("."))
+            .join(name);
+        // A root that cannot be resolved confines nothing: refuse rather than allow any path.
+        let root = self
+            .root
+            .canonicalize()
+            .map_err(|e| Unconfined::Root(crate::input::io_reason(&e)))?;
+        match path.canonicalize() {
+            Ok(real) if !real.starts_with(&root) => Err(Unconfined::Outside),
+            _ => Ok(path),
         }
     }
 
@@ -246,14 +290,8 @@ impl Validator<'_> {
             (Some(train), Some(test)) => {
                 let train = self.resolve(place, &format!("{path}.train_ids_file"), &train)?;
                 let test = self.resolve(place, &format!("{path}.test_ids_file"), &test)?;
-                let file = self.file;
-                let named = |key: &str| format!("{path}.{key} in {file}");
-                match crate::evidence::ids::overlap(
-                    &train,
-                    &named("train_ids_file"),
-                    &test,
-                    &named("test_ids_file"),
-                ) {
+                let read = self.ids_read(path, train, test);
+                match self.read_ids(read) {
                     Ok(o) => Some(o),
                     Err(d) => {
                         self.out.push(d);
@@ -279,7 +317,6 @@ impl Validator<'_> {
         task: super::Task,
         raw: Option<Spanned<super::raw::RawPredictions>>,
     ) -> Option<super::Predictions> {
-        use crate::evidence::read::Expect;
         let spanned = raw?;
         let place = Place::of(&spanned.referenced);
         let p = spanned.value;
@@ -293,16 +330,16 @@ impl Validator<'_> {
             );
             return None;
         }
-        let named = format!("{path}.predictions.file in {}", self.file);
-        let expect = Expect {
-            task,
-            classes: p.classes.as_deref(),
-            positive: p.positive_class.as_deref(),
-            named_by: &named,
-            fingerprint: true,
-        };
+        let named_by = format!("{path}.predictions.file in {}", self.file);
         let file = self.resolve(place, &format!("{path}.predictions.file"), &p.file)?;
-        let set = match crate::evidence::read_predictions(&file, expect) {
+        let set = match self.read_predictions(PredictionsRead {
+            file,
+            task,
+            classes: p.classes.clone(),
+            positive: p.positive_class.clone(),
+            named_by,
+            fingerprint: true,
+        }) {
             Ok(set) => set,
             Err(problems) => {
                 self.out.extend(problems);
@@ -334,7 +371,6 @@ impl Validator<'_> {
         folds: Option<usize>,
         beats_baseline: Option<Place>,
     ) -> Option<super::Baseline> {
-        use crate::evidence::read::Expect;
         let Some(spanned) = raw else {
             if let Some(claim) = beats_baseline {
                 self.problem(
@@ -367,16 +403,16 @@ impl Validator<'_> {
                 return None;
             }
             (Some(file), Some(Pairing { classes, positive })) => {
-                let named = format!("{key}.predictions_file in {}", self.file);
-                let expect = Expect {
-                    task,
-                    classes,
-                    positive,
-                    named_by: &named,
-                    fingerprint: false,
-                };
+                let named_by = format!("{key}.predictions_file in {}", self.file);
                 let resolved = self.resolve(place, &format!("{key}.predictions_file"), file)?;
-                match crate::evidence::read_predictions(&resolved, expect) {
+                match self.read_predictions(PredictionsRead {
+                    file: resolved,
+                    task,
+                    classes: classes.map(<[String]>::to_vec),
+                    positive: positive.map(str::to_owned),
+                    named_by,
+                    fingerprint: false,
+                }) {
                     Ok(set) => Some(set),
                     Err(problems) => {
                         self.out.extend(problems);
