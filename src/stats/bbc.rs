@@ -223,6 +223,10 @@ impl OofResults<'_> {
     /// Plain out-of-fold metric of every configuration on all rows.
     fn plain_scores(&self) -> Vec<f64> {
         let n = self.rows() as f64;
+        let all_rows = match self {
+            Self::Weighted(m) => vec![1; m.rows()],
+            _ => Vec::new(),
+        };
         (0..self.configurations())
             .map(|c| match self {
                 Self::Correctness(m) => {
@@ -234,7 +238,7 @@ impl OofResults<'_> {
                     hits as f64 / n
                 }
                 Self::RowValues(m) => m.row_values(c).iter().sum::<f64>() / n,
-                Self::Weighted(m) => m.score(c, &vec![1; m.rows()]),
+                Self::Weighted(m) => m.score(c, &all_rows),
             })
             .collect()
     }

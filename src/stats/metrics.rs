@@ -337,6 +337,14 @@ fn check_finite_named(name: &'static str, value: f64) -> Result<()> {
     }
 }
 
+/// One row's log loss −ln p̂ of the probability given to its true class, clipped as
+/// [`LogLoss`] documents (no range check: callers pass a probability they have checked).
+pub fn log_loss_of(prob_of_true_class: f64) -> f64 {
+    -prob_of_true_class
+        .clamp(f64::EPSILON, 1.0 - f64::EPSILON)
+        .ln()
+}
+
 /// Streaming log loss (cross-entropy) with scikit-learn's clipping: each probability is clipped
 /// to [ε, 1 − ε] with ε = `f64::EPSILON` (2⁻⁵², `numpy.finfo(float64).eps`) before the log, as
 /// `sklearn.metrics.log_loss` does in scikit-learn 1.9.1 (ε is the machine epsilon of the input's
@@ -366,8 +374,7 @@ impl LogLoss {
                 expected: "a probability in [0, 1]",
             });
         }
-        let clipped = prob_of_true_class.clamp(f64::EPSILON, 1.0 - f64::EPSILON);
-        self.losses.push(-clipped.ln());
+        self.losses.push(log_loss_of(prob_of_true_class));
         Ok(())
     }
 

@@ -68,7 +68,9 @@ pub use extremes::{blom_expected_max, expected_max_normal};
 pub use histogram::{Bin, Histogram};
 pub use loss_difference::{DifferenceEstimate, RegressionDifference};
 pub use mean::{MeanEstimate, mean_t_interval};
-pub use metrics::{ConfusionMatrix, F1Average, LogLoss, MAX_CLASSES, RegressionErrors};
+pub use metrics::{
+    ConfusionMatrix, F1Average, LogLoss, MAX_CLASSES, RegressionErrors, log_loss_of,
+};
 pub use normal_t::{normal_sf, t_quantile, t_sf, z_two_sided, z_two_sided_alpha};
 pub use oof::{OofTable, OofTruth};
 pub use paired::{

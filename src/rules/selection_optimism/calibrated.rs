@@ -30,10 +30,6 @@ use crate::rules::Outcome;
 use crate::rules::threshold::{at_least, at_most};
 use crate::stats::{self, Interval};
 
-/// E[max of 2 standard normals] = 1/√π (arithmetic: the maximum of two is the mean plus half the
-/// absolute difference, and E|X − Y| = 2/√π for independent standard normals).
-const EXPECTED_MAX_OF_TWO: f64 = 0.564_189_583_547_756_3;
-
 /// The calibrated gate's outcome for one model (see the module docs).
 pub(super) fn judge(
     facts: &Facts<'_>,
@@ -159,18 +155,10 @@ fn headline(facts: &Facts<'_>) -> (f64, String) {
     }
     let (m, why) = match facts.stated_effective {
         Some(e) => (e, "the stated effective configurations"),
-        None => (
-            facts.counted.map_or(1.0, |n| (n as f64).min(2.0)),
-            "min(N, 2)",
-        ),
+        None => ((facts.counted as f64).min(2.0), "min(N, 2)"),
     };
     let m = m.round().max(1.0) as u64;
-    let e = if m == 2 {
-        Ok(EXPECTED_MAX_OF_TWO)
-    } else {
-        stats::expected_max_normal(m)
-    };
-    match e {
+    match stats::expected_max_normal(m) {
         Ok(e) => (
             facts.cv_value + facts.toward_worse * e * facts.se,
             format!("the CV score less E[max of {m} normals] × its standard error, M = {why}"),

@@ -149,7 +149,7 @@ pub fn problems(raw: &RawSettings) -> Vec<(String, String)> {
 /// What every gate reads about one model's search.
 struct Facts<'a> {
     /// Configurations counted (the trials, or `search.configurations`).
-    counted: Option<u64>,
+    counted: u64,
     /// `search.effective_configurations` as stated.
     stated_effective: Option<f64>,
     claim: f64,
@@ -338,7 +338,7 @@ fn check(subject: &Subject, ctx: &Context, settings: &RuleSettings) -> Outcome {
     let luck_test_interval = if luck { test_interval } else { None };
     let fold_scores: Vec<f64> = search.cv.folds.iter().map(|f| f.score).collect();
     let facts = Facts {
-        counted: Some(counted_n),
+        counted: counted_n,
         stated_effective: search.effective_configurations,
         claim: model.claim.value,
         claim_basis: model.claim.basis,

@@ -171,14 +171,14 @@ fn input<'a>(
                     })?;
                     let is_positive: Vec<bool> = labels.iter().map(|&l| l == positive).collect();
                     if metric == Metric::LogLoss {
-                        // Per-row log loss as scikit-learn 1.9.1 clips it (stats::LogLoss).
+                        // Per-row log loss as scikit-learn 1.9.1 clips it (the reader checked
+                        // that every score is a probability).
                         let losses: Vec<f64> = scores
                             .chunks_exact(rows)
                             .flat_map(|row| {
-                                row.iter().zip(&is_positive).map(|(&p, &y)| {
-                                    let q = if y { p } else { 1.0 - p };
-                                    -q.clamp(f64::EPSILON, 1.0 - f64::EPSILON).ln()
-                                })
+                                row.iter()
+                                    .zip(&is_positive)
+                                    .map(|(&p, &y)| stats::log_loss_of(if y { p } else { 1.0 - p }))
                             })
                             .collect();
                         return RowValueMatrix::new(losses, table.rows, Direction::LowerIsBetter)
