@@ -2,11 +2,12 @@
 //! files vetscore reads for per-example evidence, on one thread — each predictions CSV with the
 //! csv crate into an id arena and class indices (labels compared with the class names), each id
 //! list split into lines into an id arena — and prints one JSON line with the rows and the
-//! seconds taken. No sorting, pairing, hashing or statistics: whatever vetscore takes beyond this
+//! seconds taken. A predictions file whose name ends in `.parquet` is read column by column with
+//! the `parquet` crate's column readers instead (the same crate and readers vetscore uses). No sorting, pairing, hashing or statistics: whatever vetscore takes beyond this
 //! is its own work. Not a test: it asserts nothing.
 //!
 //! Usage: `cargo bench --bench evidence_floor -- PREDICTIONS.csv ... -- IDS.txt ...` (each CSV
-//! with a header holding `id`, `label` and `prediction` columns, classes `no` and `yes`; each id
+//! or Parquet file with a header holding `id`, `label` and `prediction` columns, classes `no` and `yes`; each id
 //! list one id per line).
 #![allow(clippy::print_stdout, clippy::unwrap_used)]
 
@@ -49,6 +50,46 @@ fn parse_csv(path: &str) -> Parsed {
     parsed
 }
 
+/// Reads the `id`, `label` and `prediction` string columns of a Parquet file, a row group at a
+/// time, with no null handling (the benchmark's files have none).
+fn parse_parquet(path: &str) -> Parsed {
+    use parquet::column::reader::ColumnReader;
+    use parquet::file::reader::{FileReader, SerializedFileReader};
+    let reader = SerializedFileReader::new(std::fs::File::open(path).unwrap()).unwrap();
+    let schema = reader.metadata().file_metadata().schema_descr_ptr();
+    let leaf = |name: &str| {
+        (0..schema.num_columns())
+            .find(|&i| schema.column(i).name() == name)
+            .unwrap()
+    };
+    let leaves = [leaf("id"), leaf("label"), leaf("prediction")];
+    let mut parsed = Parsed::default();
+    let mut columns: [Vec<parquet::data_type::ByteArray>; 3] = Default::default();
+    for g in 0..reader.num_row_groups() {
+        let group = reader.get_row_group(g).unwrap();
+        let rows = usize::try_from(group.metadata().num_rows()).unwrap();
+        for (values, &leaf) in columns.iter_mut().zip(&leaves) {
+            let ColumnReader::ByteArrayColumnReader(mut column) =
+                group.get_column_reader(leaf).unwrap()
+            else {
+                panic!("{path}: column {leaf} does not hold strings");
+            };
+            values.clear();
+            let mut levels = Vec::new();
+            column
+                .read_records(rows, Some(&mut levels), None, values)
+                .unwrap();
+        }
+        let [ids, labels, predictions] = &columns;
+        for ((id, label), prediction) in ids.iter().zip(labels).zip(predictions) {
+            parsed.push_id(id.data());
+            parsed.classes.push(class(label.data()));
+            parsed.classes.push(class(prediction.data()));
+        }
+    }
+    parsed
+}
+
 fn parse_ids(path: &str) -> Parsed {
     let mut reader = std::io::BufReader::with_capacity(1 << 20, std::fs::File::open(path).unwrap());
     let mut parsed = Parsed::default();
@@ -73,7 +114,13 @@ fn main() {
     let start = Instant::now();
     let parsed: Vec<Parsed> = csvs
         .iter()
-        .map(|f| parse_csv(f))
+        .map(|f| {
+            if f.ends_with(".parquet") {
+                parse_parquet(f)
+            } else {
+                parse_csv(f)
+            }
+        })
         .chain(lists.iter().map(|f| parse_ids(f)))
         .collect();
     let seconds = start.elapsed().as_secs_f64();

@@ -3,7 +3,10 @@ the baseline's predictions with pandas, recompute accuracy with scikit-learn, ha
 for the test fingerprint, test the improvement with statsmodels' McNemar on rows paired by id,
 and look for train ids among the test ids. Used by scripts/bench_evidence.sh. Prints JSON.
 
-usage: python benches/evidence_python.py DIR
+usage: python benches/evidence_python.py DIR [csv|parquet]
+
+With `parquet`, the two predictions files are DIR/predictions.parquet and DIR/baseline.parquet,
+read with pandas' `read_parquet`.
 """
 
 import hashlib
@@ -15,8 +18,13 @@ from sklearn.metrics import accuracy_score
 from statsmodels.stats.contingency_tables import mcnemar
 
 d = sys.argv[1]
-model = pd.read_csv(f"{d}/predictions.csv", dtype={"id": str, "label": str, "prediction": str})
-base = pd.read_csv(f"{d}/baseline.csv", dtype={"id": str, "label": str, "prediction": str})
+form = sys.argv[2] if len(sys.argv) > 2 else "csv"
+if form == "parquet":
+    model = pd.read_parquet(f"{d}/predictions.parquet")
+    base = pd.read_parquet(f"{d}/baseline.parquet")
+else:
+    model = pd.read_csv(f"{d}/predictions.csv", dtype={"id": str, "label": str, "prediction": str})
+    base = pd.read_csv(f"{d}/baseline.csv", dtype={"id": str, "label": str, "prediction": str})
 accuracy = accuracy_score(model["label"], model["prediction"])
 fingerprint = "sha256:" + hashlib.sha256("\n".join(sorted(model["id"])).encode()).hexdigest()
 pairs = model.merge(base, on="id", suffixes=("_m", "_b"))

@@ -4,7 +4,10 @@
 # (benches/evidence_python.py). Checks both give the same numbers, then prints wall time and
 # peak memory of each, the input size and the ratios, and the floor: a program that only parses
 # the same files on one thread (benches/evidence_floor.rs). Needs python3 with numpy, pandas,
-# scikit-learn and statsmodels; ROWS sets the size (default 10000000).
+# scikit-learn and statsmodels; ROWS sets the size (default 10000000). FORMAT=parquet times the
+# same rows with the two predictions files written as Parquet by pandas (`to_parquet`, pyarrow,
+# its default snappy compression; needs pyarrow): vetscore, the Python script (`read_parquet`)
+# and the floor all read the Parquet files, and the input size counts them instead of the CSVs.
 #
 # WORK keeps the generated files for the next run (generation is skipped when WORK already holds
 # them); with WORK set, REUSE_PYTHON=1 reuses the Python script's output and time from an earlier
@@ -16,6 +19,8 @@ set -euo pipefail
 cd "$(dirname "$0")/.."
 PYTHON=${PYTHON:-python3}
 ROWS=${ROWS:-10000000}
+FORMAT=${FORMAT:-csv}
+case "$FORMAT" in csv | parquet) ;; *) echo "FORMAT must be csv or parquet, not $FORMAT" >&2; exit 2 ;; esac
 work=${WORK:-$(mktemp -d)}
 trap '[ -z "${WORK:-}" ] && rm -rf "$work"' EXIT
 
@@ -73,22 +78,41 @@ models:
 """)
 PY
 
+manifest=$work/manifest.yaml
+if [ "$FORMAT" = parquet ]; then
+    [ -f "$work/baseline.parquet" ] || "$PYTHON" - "$work" <<'PY'
+import sys
+import pandas as pd
+work = sys.argv[1]
+for name in ("predictions", "baseline"):
+    frame = pd.read_csv(f"{work}/{name}.csv", dtype=str, keep_default_na=False)
+    frame.to_parquet(f"{work}/{name}.parquet", index=False)
+PY
+    manifest=$work/manifest.parquet.yaml
+    sed -e 's/predictions\.csv/predictions.parquet/' -e 's/baseline\.csv/baseline.parquet/' \
+        "$work/manifest.yaml" > "$manifest"
+fi
+predictions=$work/predictions.$FORMAT
+baseline=$work/baseline.$FORMAT
+
 measure() {
     /usr/bin/time -f "%e %M %U %S" "$@" 2> "$work/time" > "$work/out" || true
     tail -n 1 "$work/time" | cut -d' ' -f3,4 > "$work/cpu"
     tail -n 1 "$work/time" | cut -d' ' -f1,2
 }
-read -r rs_s rs_kb < <(measure "$VETSCORE" check --today 2026-12-01 --root "$work" --json - "$work/manifest.yaml")
+read -r rs_s rs_kb < <(measure "$VETSCORE" check --today 2026-12-01 --root "$work" --json - "$manifest")
 cp "$work/out" "$work/vetscore.json"
 read -r rs_user rs_sys < <(tail -n 1 "$work/cpu")
-if [ -n "${REUSE_PYTHON:-}" ] && [ -f "$work/python.time" ] && [ -f "$work/python.json" ]; then
-    read -r py_s py_kb < "$work/python.time"
+if [ -n "${REUSE_PYTHON:-}" ] && [ -f "$work/python.$FORMAT.time" ] && [ -f "$work/python.$FORMAT.json" ]; then
+    read -r py_s py_kb < "$work/python.$FORMAT.time"
+    cp "$work/python.$FORMAT.json" "$work/python.json"
 else
-    read -r py_s py_kb < <(measure "$PYTHON" benches/evidence_python.py "$work")
+    read -r py_s py_kb < <(measure "$PYTHON" benches/evidence_python.py "$work" "$FORMAT")
     cp "$work/out" "$work/python.json"
-    echo "$py_s $py_kb" > "$work/python.time"
+    cp "$work/out" "$work/python.$FORMAT.json"
+    echo "$py_s $py_kb" > "$work/python.$FORMAT.time"
 fi
-read -r fl_s fl_kb < <(measure "$floor" "$work/predictions.csv" "$work/baseline.csv" -- "$work/test_ids.txt" "$work/train_ids.txt")
+read -r fl_s fl_kb < <(measure "$floor" "$predictions" "$baseline" -- "$work/test_ids.txt" "$work/train_ids.txt")
 fl_parse=$("$PYTHON" -c 'import json, sys; print(json.load(open(sys.argv[1]))["seconds"])' "$work/out")
 
 "$PYTHON" - "$work" <<'PY'
@@ -112,8 +136,8 @@ for name, (ours, theirs) in checks.items():
         assert abs(ours - theirs) <= 1e-9 * max(1.0, abs(theirs)), (name, ours, theirs)
 print("same numbers: " + ", ".join(f"{k} {v[1]}" for k, v in checks.items() if k != "fingerprint"))
 PY
-size=$(du -cb "$work"/predictions.csv "$work"/baseline.csv "$work"/train_ids.txt "$work"/test_ids.txt | tail -n 1 | cut -f1)
-echo "input: $ROWS predictions per side and $ROWS ids per list, $((size / 1048576)) MiB"
+size=$(du -cb "$predictions" "$baseline" "$work"/train_ids.txt "$work"/test_ids.txt | tail -n 1 | cut -f1)
+echo "input: $ROWS predictions per side ($FORMAT) and $ROWS ids per list, $((size / 1048576)) MiB"
 echo "vetscore: ${rs_s} s wall, ${rs_user} s user + ${rs_sys} s system CPU, peak $((rs_kb / 1024)) MiB"
 echo "python:   ${py_s} s, peak $((py_kb / 1024)) MiB"
 echo "floor:    ${fl_parse} s parsing (${fl_s} s with start and exit), peak $((fl_kb / 1024)) MiB"
