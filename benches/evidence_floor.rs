@@ -2,13 +2,14 @@
 //! files vetscore reads for per-example evidence, on one thread — each predictions CSV with the
 //! csv crate into an id arena and class indices (labels compared with the class names), each id
 //! list split into lines into an id arena — and prints one JSON line with the rows and the
-//! seconds taken. A predictions file whose name ends in `.parquet` is read column by column with
-//! the `parquet` crate's column readers instead (the same crate and readers vetscore uses). No sorting, pairing, hashing or statistics: whatever vetscore takes beyond this
-//! is its own work. Not a test: it asserts nothing.
+//! seconds taken. A predictions file whose name ends in `.parquet` is read column by column
+//! with the `parquet` crate's column readers, the crate vetscore reads Parquet with. No sorting,
+//! pairing, hashing or statistics: whatever vetscore takes beyond this is its own work. Not a
+//! test: it asserts nothing.
 //!
 //! Usage: `cargo bench --bench evidence_floor -- PREDICTIONS.csv ... -- IDS.txt ...` (each CSV
-//! or Parquet file with a header holding `id`, `label` and `prediction` columns, classes `no` and `yes`; each id
-//! list one id per line).
+//! or Parquet file holding `id`, `label` and `prediction` columns, classes `no` and `yes`; each
+//! id list one id per line).
 #![allow(clippy::print_stdout, clippy::unwrap_used)]
 
 use std::io::BufRead;

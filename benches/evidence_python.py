@@ -19,12 +19,14 @@ from statsmodels.stats.contingency_tables import mcnemar
 
 d = sys.argv[1]
 form = sys.argv[2] if len(sys.argv) > 2 else "csv"
-if form == "parquet":
-    model = pd.read_parquet(f"{d}/predictions.parquet")
-    base = pd.read_parquet(f"{d}/baseline.parquet")
-else:
-    model = pd.read_csv(f"{d}/predictions.csv", dtype={"id": str, "label": str, "prediction": str})
-    base = pd.read_csv(f"{d}/baseline.csv", dtype={"id": str, "label": str, "prediction": str})
+readers = {
+    "csv": lambda path: pd.read_csv(path, dtype={"id": str, "label": str, "prediction": str}),
+    "parquet": pd.read_parquet,
+}
+if form not in readers:
+    sys.exit(f"format must be csv or parquet, not {form}")
+model = readers[form](f"{d}/predictions.{form}")
+base = readers[form](f"{d}/baseline.{form}")
 accuracy = accuracy_score(model["label"], model["prediction"])
 fingerprint = "sha256:" + hashlib.sha256("\n".join(sorted(model["id"])).encode()).hexdigest()
 pairs = model.merge(base, on="id", suffixes=("_m", "_b"))

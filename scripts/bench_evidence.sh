@@ -103,22 +103,22 @@ measure() {
 read -r rs_s rs_kb < <(measure "$VETSCORE" check --today 2026-12-01 --root "$work" --json - "$manifest")
 cp "$work/out" "$work/vetscore.json"
 read -r rs_user rs_sys < <(tail -n 1 "$work/cpu")
-if [ -n "${REUSE_PYTHON:-}" ] && [ -f "$work/python.$FORMAT.time" ] && [ -f "$work/python.$FORMAT.json" ]; then
-    read -r py_s py_kb < "$work/python.$FORMAT.time"
-    cp "$work/python.$FORMAT.json" "$work/python.json"
+# The Python result and time of each format are kept apart, so REUSE_PYTHON never mixes them.
+python_json=$work/python.$FORMAT.json python_time=$work/python.$FORMAT.time
+if [ -n "${REUSE_PYTHON:-}" ] && [ -f "$python_time" ] && [ -f "$python_json" ]; then
+    read -r py_s py_kb < "$python_time"
 else
     read -r py_s py_kb < <(measure "$PYTHON" benches/evidence_python.py "$work" "$FORMAT")
-    cp "$work/out" "$work/python.json"
-    cp "$work/out" "$work/python.$FORMAT.json"
-    echo "$py_s $py_kb" > "$work/python.$FORMAT.time"
+    cp "$work/out" "$python_json"
+    echo "$py_s $py_kb" > "$python_time"
 fi
 read -r fl_s fl_kb < <(measure "$floor" "$predictions" "$baseline" -- "$work/test_ids.txt" "$work/train_ids.txt")
 fl_parse=$("$PYTHON" -c 'import json, sys; print(json.load(open(sys.argv[1]))["seconds"])' "$work/out")
 
-"$PYTHON" - "$work" <<'PY'
+"$PYTHON" - "$work" "$python_json" <<'PY'
 import json, sys
 work = sys.argv[1]
-py = json.load(open(f"{work}/python.json"))
+py = json.load(open(sys.argv[2]))
 report = json.load(open(f"{work}/vetscore.json"))
 ev = {(f["rule"], e["key"]): e for f in report["models"][0]["findings"] for e in f["evidence"]}
 checks = {
