@@ -5,8 +5,8 @@
 //! `fold_1` … `fold_K` (any other column is a hyperparameter and is not read), or JSON Lines with
 //! one object per line, `{"id": …, "params": {…}, "fold_scores": [ … ]}`. Each trial feeds the
 //! Tibshirani & Tibshirani accumulator and a histogram of mean scores, whose sizes depend on the
-//! number of folds only; the one thing kept per trial is its id ([`TrialIds`]: the id's bytes and
-//! 9 to 15 bytes of index), so that a duplicate is caught exactly. scikit-learn's `cv_results_` as
+//! number of folds only; the one thing kept per trial is its id ([`TrialIds`]: the id's bytes, 4
+//! bytes of index and 4 of line number), so that a duplicate is caught exactly. scikit-learn's `cv_results_` as
 //! pandas writes it is read too ([`super::sklearn`]); its JSON form is parsed whole, so it has a
 //! smaller size limit.
 //!
@@ -15,8 +15,11 @@
 //! must then equal the manifest's folds; unnamed, it is the first trial whose fold scores equal
 //! them (within [`SCORE_MATCH`]), and a search where none does is an input error.
 
+mod ids;
+mod number;
+mod rows;
+
 use std::collections::BTreeMap;
-use std::hash::BuildHasher;
 use std::io::BufRead;
 use std::path::Path;
 
@@ -27,6 +30,7 @@ use super::Metric;
 use crate::diag::{Diagnostic, Place};
 use crate::opener::Kind;
 use crate::stats::{BiasEstimate, Bin, Histogram, SelectionBias};
+use ids::TrialIds;
 
 /// Display bins of the trial-score histogram.
 pub const HISTOGRAM_BINS: usize = 16;
@@ -114,9 +118,19 @@ pub struct TrialReader<'a> {
     bias: SelectionBias,
     histogram: Histogram,
     ids: TrialIds,
+    /// The line of each id's trial, by ordinal; 0 when the line is unknown or the trial is in
+    /// `placed`.
+    lines: Vec<u32>,
+    /// Where the trials are whose place is more than a line number below 2^32, or that have a key
+    /// path (inline trials), by ordinal.
+    placed: Vec<(u32, Place, String)>,
     /// The scores of the trial being pushed, signed for the accumulator (reused, not reallocated).
     signed: Vec<f64>,
-    problems: Vec<Diagnostic>,
+    /// Problems in the order of the trials they concern, each with its [`TrialReader::tag`].
+    problems: Vec<(u64, Diagnostic)>,
+    /// Orders problems by trial: 2k between the trials of ordinals k - 1 and k, 2k + 1 while the
+    /// trial of ordinal k is pushed. A repeated id found at the end replaces its trial's problems.
+    tag: u64,
     selected: Option<Selected>,
     /// The trial the file itself marks as chosen (scikit-learn's first `rank_test_score == 1`).
     ranked_first: Option<Candidate>,
@@ -145,8 +159,11 @@ impl<'a> TrialReader<'a> {
             bias: SelectionBias::new(folds),
             histogram: Histogram::default(),
             ids: TrialIds::default(),
+            lines: Vec::new(),
+            placed: Vec::new(),
             signed: Vec::with_capacity(folds),
             problems: Vec::new(),
+            tag: 0,
             selected: None,
             ranked_first: None,
             candidate: None,
@@ -172,14 +189,25 @@ impl<'a> TrialReader<'a> {
 
     fn problem(&mut self, place: Place, path: String, message: String) {
         if !self.full() {
-            self.problems
-                .push(Diagnostic::at(self.file, place, path, message));
+            self.note(Diagnostic::at(self.file, place, path, message));
         }
+    }
+
+    /// Records a problem, however many there are.
+    fn note(&mut self, problem: Diagnostic) {
+        self.problems.push((self.tag, problem));
     }
 
     /// Adds one trial; `path` names it in diagnostics (`models[0].search.trials[3]` inline, empty
     /// in a file, where the line says which trial).
     pub fn push(&mut self, place: Place, path: &str, id: &str, scores: &[f64]) {
+        let ordinal = self.ids.len() as u64;
+        self.tag = 2 * ordinal + 1;
+        self.push_trial(place, path, id, scores);
+        self.tag = 2 * self.ids.len() as u64;
+    }
+
+    fn push_trial(&mut self, place: Place, path: &str, id: &str, scores: &[f64]) {
         let key = |field: &str| {
             if path.is_empty() {
                 field.to_owned()
@@ -187,21 +215,24 @@ impl<'a> TrialReader<'a> {
                 format!("{path}.{field}")
             }
         };
-        match self.ids.insert(id.as_bytes()) {
-            Some(true) => {}
-            Some(false) => {
-                self.problem(place, key("id"), format!("trial id {id:?} appears twice"));
-                return;
+        // Kept for the check for repeated ids at the end, which needs to say where each is.
+        let Some(ordinal) = self.ids.push(id.as_bytes()) else {
+            self.problem(
+                place,
+                key("id"),
+                format!("the trial ids pass {} bytes in all", u32::MAX),
+            );
+            return;
+        };
+        let line = match (place.line.map(u32::try_from), place.column, path) {
+            (Some(Ok(line)), None, "") => line,
+            (None, None, "") => 0,
+            _ => {
+                self.placed.push((ordinal, place, path.to_owned()));
+                0
             }
-            None => {
-                self.problem(
-                    place,
-                    key("id"),
-                    format!("the trial ids pass {} bytes in all", u32::MAX),
-                );
-                return;
-            }
-        }
+        };
+        self.lines.push(line);
         if scores.len() != self.folds {
             self.problem(
                 place,
@@ -408,109 +439,13 @@ impl<'a> TrialReader<'a> {
     /// every record is as long as `record` (the first). A record takes at least one byte per
     /// field (its comma or line break), so this is never more than the most records a file of
     /// that size could hold.
-    fn expect_records_like(&mut self, record: &csv::StringRecord) {
+    fn expect_records_like(&mut self, record_bytes: usize, id_bytes: usize) {
         let Some(bytes) = self.source_bytes.take() else {
             return;
         };
-        let per_record = (record.as_byte_record().as_slice().len() + record.len()).max(1);
-        let records = usize::try_from(bytes / per_record as u64).unwrap_or(usize::MAX);
-        self.ids.reserve(records);
-    }
-
-    /// Reads a CSV trials file with an `id` column and `fold_1` … `fold_K` columns.
-    pub fn read_csv(&mut self, reader: impl std::io::Read) {
-        let mut csv = csv::ReaderBuilder::new()
-            .has_headers(true)
-            .from_reader(reader);
-        let header = match csv.headers() {
-            Ok(h) => h.clone(),
-            Err(e) => {
-                let (line, reason) = crate::opener::csv_failure(&e);
-                self.problem(
-                    Place::new(line.unwrap_or(1), 1),
-                    "(header)".into(),
-                    format!("cannot read the CSV header: {reason}"),
-                );
-                return;
-            }
-        };
-        let column = |name: &str| header.iter().position(|h| h.trim() == name);
-        let id_column = column("id");
-        if id_column.is_none() && super::sklearn::is_cv_results(header.iter()) {
-            self.read_cv_results_csv(&header, csv);
-            return;
-        }
-        let fold_columns: Vec<Option<usize>> = (1..=self.folds)
-            .map(|k| column(&format!("fold_{k}")))
-            .collect();
-        let missing: Vec<String> = std::iter::once(("id".to_owned(), id_column))
-            .chain(
-                fold_columns
-                    .iter()
-                    .enumerate()
-                    .map(|(k, c)| (format!("fold_{}", k + 1), *c)),
-            )
-            .filter(|(_, c)| c.is_none())
-            .map(|(name, _)| name)
-            .collect();
-        let (Some(id_column), true) = (id_column, missing.is_empty()) else {
-            if !self.full() {
-                self.problems.push(
-                    Diagnostic::at(
-                        self.file,
-                        Place::new(1, 1),
-                        "(header)",
-                        format!(
-                            "missing column{} {}",
-                            if missing.len() == 1 { "" } else { "s" },
-                            missing.join(", ")
-                        ),
-                    )
-                    .with_help(
-                        "a trials CSV has vetscore's columns (id, fold_1 … fold_K) or is scikit-learn's cv_results_ as pandas writes it (split0_test_score …)",
-                    ),
-                );
-            }
-            return;
-        };
-        let fold_columns: Vec<usize> = fold_columns.into_iter().flatten().collect();
-        let mut record = csv::StringRecord::new();
-        let mut scores = Vec::with_capacity(self.folds);
-        loop {
-            if !self.next_record(&mut csv, &mut record) {
-                return;
-            }
-            self.expect_records_like(&record);
-            let line = record.position().map(|p| p.line()).unwrap_or(0);
-            let place = Place {
-                line: Some(line),
-                column: None,
-            };
-            scores.clear();
-            let mut ok = true;
-            for (k, &c) in fold_columns.iter().enumerate() {
-                let cell = record.get(c).unwrap_or("");
-                match parse_score(cell) {
-                    Some(v) => scores.push(v),
-                    None => {
-                        let cell = cell.trim();
-                        self.problem(
-                            Place {
-                                line: Some(line),
-                                column: Some(c as u64 + 1),
-                            },
-                            format!("fold_{}", k + 1),
-                            format!("expected a number, found {cell:?}"),
-                        );
-                        ok = false;
-                        break;
-                    }
-                }
-            }
-            if ok {
-                self.push(place, "", record.get(id_column).unwrap_or(""), &scores);
-            }
-        }
+        let records = usize::try_from(bytes / record_bytes.max(1) as u64).unwrap_or(usize::MAX);
+        self.ids.reserve(records, id_bytes);
+        self.lines.reserve(records);
     }
 
     /// Reads the next CSV record; false at the end, when full, or after a read error (reported).
@@ -546,7 +481,7 @@ impl<'a> TrialReader<'a> {
             self.folds,
             self.scorer.as_ref(),
         );
-        layout.map_err(|d| self.problems.push(d)).ok()
+        layout.map_err(|d| self.note(d)).ok()
     }
 
     /// Reads `pandas.DataFrame(search.cv_results_).to_csv()`, header already read.
@@ -565,6 +500,10 @@ impl<'a> TrialReader<'a> {
                 return;
             }
             let line = record.position().map(|p| p.line()).unwrap_or(0);
+            if record.len() != columns.len() {
+                self.ragged(line, record.len(), columns.len());
+                continue;
+            }
             let id = layout.id.and_then(|c| record.get(c)).map(str::to_owned);
             let cell = |c: usize| {
                 let text = record.get(c).unwrap_or("").trim();
@@ -591,7 +530,7 @@ impl<'a> TrialReader<'a> {
     pub fn read_cv_results_json(&mut self, reader: impl std::io::Read) {
         use serde_json::Value;
         let whole = |me: &mut Self, message: String| {
-            me.problems.push(
+            me.note(
                 Diagnostic::file(me.file, message).with_help(
                     "write the results with pandas.DataFrame(search.cv_results_).to_json() (or orient=\"records\")",
                 ),
@@ -737,18 +676,69 @@ impl<'a> TrialReader<'a> {
         }
     }
 
+    /// Adds a problem for every id that repeats an earlier one, in place of the problems of its
+    /// trial (a repeated trial is not checked further), keeping the first [`MAX_PROBLEMS`] in the
+    /// order of the trials.
+    fn note_repeats(&mut self) {
+        let repeats = self.ids.repeats();
+        if repeats.is_empty() {
+            return;
+        }
+        let tags: Vec<u64> = repeats.iter().map(|&k| 2 * u64::from(k) + 1).collect();
+        self.problems
+            .retain(|(tag, _)| tags.binary_search(tag).is_err());
+        for (&ordinal, &tag) in repeats.iter().zip(&tags) {
+            let (place, path) = match self.placed.binary_search_by_key(&ordinal, |p| p.0) {
+                Ok(i) => {
+                    let (_, place, path) = &self.placed[i];
+                    let key = if path.is_empty() {
+                        "id".to_owned()
+                    } else {
+                        format!("{path}.id")
+                    };
+                    (*place, key)
+                }
+                Err(_) => {
+                    let line = self.lines[ordinal as usize];
+                    let place = Place {
+                        line: (line > 0).then_some(u64::from(line)),
+                        column: None,
+                    };
+                    (place, "id".to_owned())
+                }
+            };
+            let id = String::from_utf8_lossy(self.ids.get(ordinal));
+            let problem = Diagnostic::at(
+                self.file,
+                place,
+                path,
+                format!("trial id {id:?} appears twice"),
+            );
+            self.problems.push((tag, problem));
+        }
+        // Stable: problems of one tag stay in the order they were found.
+        self.problems.sort_by_key(|(tag, _)| *tag);
+        let keep = self.problems.partition_point(|(tag, _)| *tag != u64::MAX);
+        let mut rest = self.problems.split_off(keep);
+        self.problems.truncate(MAX_PROBLEMS);
+        self.problems.append(&mut rest);
+    }
+
     /// The summary, or every problem found.
     pub fn finish(mut self) -> Result<TrialSummary, Vec<Diagnostic>> {
         if let (Some(s), false) = (&self.scorer, self.cv_results) {
-            self.problems.push(Diagnostic::at(
+            let problem = Diagnostic::at(
                 &s.file,
                 s.place,
                 s.path.clone(),
                 "scorer names a column set of scikit-learn's cv_results_, but the trials are not a scikit-learn results file",
-            ));
+            );
+            self.tag = u64::MAX;
+            self.note(problem);
         }
+        self.note_repeats();
         if !self.problems.is_empty() {
-            return Err(self.problems);
+            return Err(self.problems.into_iter().map(|(_, p)| p).collect());
         }
         let argmax = self.bias.finish().map_err(|e| {
             vec![Diagnostic::file(
@@ -816,202 +806,4 @@ pub fn read_file(
         _ => reader.read_csv(buffered),
     }
     reader.finish()
-}
-
-/// A fold score read from a CSV cell: plain decimal digits through [`decimal`], anything else as
-/// before, trimmed and through `str::parse`. `None` when it is not a number.
-fn parse_score(cell: &str) -> Option<f64> {
-    decimal(cell.as_bytes()).or_else(|| cell.trim().parse::<f64>().ok())
-}
-
-/// The powers of ten that an f64 holds exactly (5^22 < 2^53, so 10^22 is the last).
-const EXACT_POWERS_OF_TEN: [f64; 23] = [
-    1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16,
-    1e17, 1e18, 1e19, 1e20, 1e21, 1e22,
-];
-
-/// A number written as plain decimal digits with an optional fraction (`0.8123`, `1`, `12.50`),
-/// parsed without the general parser. Its digits, read as one integer m, are at most 2^53 and the
-/// k digits after the point at most 22, so m and 10^k are both exact in an f64 and m / 10^k is
-/// one correctly rounded division: the correctly rounded value of the decimal, which is what
-/// `str::parse::<f64>` returns (the exact case of Clinger 1990, "How to read floating point
-/// numbers accurately"). `None` for anything else (a sign, an exponent, white space, `.5`, `5.`,
-/// more digits), which the caller hands to `str::parse`.
-fn decimal(text: &[u8]) -> Option<f64> {
-    let (whole, fraction) = match text.iter().position(|&b| b == b'.') {
-        Some(point) => (&text[..point], &text[point + 1..]),
-        None => (text, &text[text.len()..]),
-    };
-    let pointed = whole.len() < text.len();
-    if whole.is_empty() || (pointed && fraction.is_empty()) {
-        return None;
-    }
-    let power = EXACT_POWERS_OF_TEN.get(fraction.len())?;
-    let mut digits: u64 = 0;
-    for &b in whole.iter().chain(fraction) {
-        let digit = b.wrapping_sub(b'0');
-        if digit > 9 {
-            return None;
-        }
-        digits = digits.checked_mul(10)?.checked_add(u64::from(digit))?;
-    }
-    if digits > 1 << 53 {
-        return None;
-    }
-    Some(digits as f64 / power)
-}
-
-/// The trial ids seen so far, to refuse a duplicate exactly. Every id's bytes are kept once, end
-/// to end in one buffer, and a hash table holds each id's index, probed by a hash of the bytes
-/// (foldhash, seeded at random per process so that colliding ids cannot be planned; no result
-/// depends on the seed). Ids whose hashes meet are compared byte for byte, so a collision never
-/// passes for a duplicate, and equal ids always hash alike, so no duplicate is missed.
-struct TrialIds<S = foldhash::fast::RandomState> {
-    bytes: Vec<u8>,
-    /// Where each id ends in `bytes` (it starts where the one before ends).
-    ends: Vec<u32>,
-    table: hashbrown::HashTable<u32>,
-    hasher: S,
-}
-
-impl<S: Default> Default for TrialIds<S> {
-    fn default() -> Self {
-        TrialIds {
-            bytes: Vec::new(),
-            ends: Vec::new(),
-            table: hashbrown::HashTable::new(),
-            hasher: S::default(),
-        }
-    }
-}
-
-impl<S: BuildHasher> TrialIds<S> {
-    /// Makes room for `more` ids without growing the table.
-    fn reserve(&mut self, more: usize) {
-        // Closures capture the fields they use, so the table can grow while they read the ids.
-        self.table.reserve(more, |&i| {
-            self.hasher.hash_one(stored(&self.bytes, &self.ends, i))
-        });
-        self.ends.reserve(more);
-    }
-
-    /// Adds `id`: `Some(true)` when it is new, `Some(false)` when it was seen before, `None` when
-    /// the ids would pass 4 GiB in all (more than any trials source within its size limit holds).
-    fn insert(&mut self, id: &[u8]) -> Option<bool> {
-        let TrialIds {
-            bytes,
-            ends,
-            table,
-            hasher,
-        } = self;
-        let entry = table.entry(
-            hasher.hash_one(id),
-            |&i| stored(bytes, ends, i) == id,
-            |&i| hasher.hash_one(stored(bytes, ends, i)),
-        );
-        let hashbrown::hash_table::Entry::Vacant(vacant) = entry else {
-            return Some(false);
-        };
-        let index = u32::try_from(ends.len()).ok()?;
-        let end = u32::try_from(bytes.len() + id.len()).ok()?;
-        bytes.extend_from_slice(id);
-        ends.push(end);
-        vacant.insert(index);
-        Some(true)
-    }
-}
-
-/// The id at `index` in [`TrialIds`]' buffer.
-fn stored<'a>(bytes: &'a [u8], ends: &[u32], index: u32) -> &'a [u8] {
-    let i = index as usize;
-    let start = i.checked_sub(1).map_or(0, |before| ends[before] as usize);
-    &bytes[start..ends[i] as usize]
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-    use proptest::prelude::*;
-
-    /// Every id hashes alike: each lookup must fall back to comparing bytes.
-    #[derive(Default)]
-    struct Colliding;
-
-    impl BuildHasher for Colliding {
-        type Hasher = Colliding;
-        fn build_hasher(&self) -> Colliding {
-            Colliding
-        }
-    }
-
-    impl std::hash::Hasher for Colliding {
-        fn finish(&self) -> u64 {
-            7
-        }
-        fn write(&mut self, _: &[u8]) {}
-    }
-
-    /// The obvious way: a set of owned ids.
-    fn oracle(ids: &[Vec<u8>]) -> Vec<bool> {
-        let mut seen = std::collections::HashSet::new();
-        ids.iter().map(|id| seen.insert(id.clone())).collect()
-    }
-
-    fn ids() -> impl Strategy<Value = Vec<Vec<u8>>> {
-        // A small alphabet and short ids, so duplicates (and ids that are prefixes of others,
-        // and the empty id) are common.
-        proptest::collection::vec(proptest::collection::vec(b'a'..=b'c', 0..4), 0..200)
-    }
-
-    proptest! {
-        #[test]
-        fn trial_ids_find_exactly_the_duplicates(ids in ids(), room in 0usize..300) {
-            let mut set = TrialIds::<foldhash::fast::RandomState>::default();
-            // Sized ahead (as from a file's size) or not, the answers are the same.
-            set.reserve(room);
-            let found: Vec<bool> = ids.iter().map(|id| set.insert(id).unwrap_or(false)).collect();
-            prop_assert_eq!(found, oracle(&ids));
-        }
-
-        #[test]
-        fn colliding_hashes_are_never_taken_for_duplicates(ids in ids()) {
-            let mut set = TrialIds::<Colliding>::default();
-            let found: Vec<bool> = ids.iter().map(|id| set.insert(id).unwrap_or(false)).collect();
-            prop_assert_eq!(found, oracle(&ids));
-        }
-
-        #[test]
-        fn decimal_equals_str_parse(
-            whole in "[0-9]{0,24}",
-            point in any::<bool>(),
-            fraction in "[0-9]{0,26}",
-        ) {
-            let text = if point { format!("{whole}.{fraction}") } else { whole.clone() };
-            let parsed = text.parse::<f64>().ok();
-            match decimal(text.as_bytes()) {
-                Some(fast) => prop_assert_eq!(Some(fast.to_bits()), parsed.map(f64::to_bits)),
-                None => {
-                    // Only what the fast path does not claim: a form it leaves out, or more
-                    // digits than fit exactly.
-                    let digits = whole.len() + if point { fraction.len() } else { 0 };
-                    let short = whole.trim_start_matches('0').len()
-                        + if point { fraction.len() } else { 0 };
-                    prop_assert!(
-                        whole.is_empty()
-                            || (point && fraction.is_empty())
-                            || fraction.len() > 22
-                            || short > 15
-                            || digits > 19,
-                        "{text:?} was refused"
-                    );
-                }
-            }
-        }
-
-        #[test]
-        fn anything_else_goes_to_str_parse(text in "[-+ .0-9eEinfatyINFATY_]{0,12}") {
-            let expected = text.trim().parse::<f64>().ok().map(f64::to_bits);
-            prop_assert_eq!(parse_score(&text).map(f64::to_bits), expected);
-        }
-    }
 }
