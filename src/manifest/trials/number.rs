@@ -22,27 +22,34 @@ const EXACT_POWERS_OF_TEN: [f64; 23] = [
 /// numbers accurately"). `None` for anything else (a sign, an exponent, white space, `.5`, `5.`,
 /// more digits), which the caller hands to `str::parse`.
 fn decimal(text: &[u8]) -> Option<f64> {
-    let (whole, fraction) = match text.iter().position(|&b| b == b'.') {
-        Some(point) => (&text[..point], &text[point + 1..]),
-        None => (text, &text[text.len()..]),
-    };
-    let pointed = whole.len() < text.len();
-    if whole.is_empty() || (pointed && fraction.is_empty()) {
+    // At most 19 digits, which a u64 holds without overflow (10^19 - 1 < 2^64); longer text goes
+    // to the general parser (20 digits without a point wrap, and are refused below).
+    if text.is_empty() || text.len() > 20 {
         return None;
     }
-    let power = EXACT_POWERS_OF_TEN.get(fraction.len())?;
     let mut digits: u64 = 0;
-    for &b in whole.iter().chain(fraction) {
+    let mut point = None;
+    for (at, &b) in text.iter().enumerate() {
         let digit = b.wrapping_sub(b'0');
-        if digit > 9 {
+        if digit <= 9 {
+            digits = digits.wrapping_mul(10).wrapping_add(u64::from(digit));
+        } else if b == b'.' && point.is_none() {
+            point = Some(at);
+        } else {
             return None;
         }
-        digits = digits.checked_mul(10)?.checked_add(u64::from(digit))?;
     }
-    if digits > 1 << 53 {
+    let fraction = match point {
+        None => 0,
+        // `.5` and `5.` are for the general parser.
+        Some(0) => return None,
+        Some(at) if at + 1 == text.len() => return None,
+        Some(at) => text.len() - at - 1,
+    };
+    if text.len() - usize::from(point.is_some()) > 19 || digits > 1 << 53 {
         return None;
     }
-    Some(digits as f64 / power)
+    Some(digits as f64 / EXACT_POWERS_OF_TEN[fraction])
 }
 
 #[cfg(test)]

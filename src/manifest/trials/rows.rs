@@ -1,7 +1,8 @@
 //! A CSV trials file, read in blocks of whole lines.
 //!
-//! Most trials files are plain: no quotes, and every carriage return the first half of a CRLF
-//! line break. A plain block is split into fields at its commas and line breaks without the
+//! Lines end with a line feed; a carriage return before it (CRLF) is dropped, and anywhere else
+//! it is part of the field (the csv crate's line numbers lag a line at every CRLF, so it is told
+//! that records end at a line feed only). Most trials files are plain: no quotes. A plain block is split into fields at its commas and line breaks without the
 //! general CSV tokenizer, two blocks at a time on two threads; their trials are then pushed in
 //! file order, so the result is the one a single thread reading record by record would give. From
 //! the first block that is not plain to the end of the file, and for scikit-learn's results, the
@@ -14,9 +15,9 @@ use super::TrialReader;
 use super::number::parse_score;
 use crate::diag::Place;
 
-/// Bytes read for one block before it is cut after its last line break. At least four times the
-/// longest record ([`crate::opener::MAX_RECORD_BYTES`]), so a block always holds whole records.
-const BLOCK_BYTES: usize = 4 << 20;
+/// Bytes read for the main thread's block before it is cut after its last line break (the second
+/// thread's are three times as large; see [`TrialReader::read_blocks`]).
+const BLOCK_BYTES: usize = 1 << 20;
 
 /// Bytes asked of the source in one read.
 const READ_BYTES: usize = 64 << 10;
@@ -45,6 +46,8 @@ struct Parsed {
     problems: Vec<(usize, Problem)>,
     /// Line breaks in the run.
     newlines: u64,
+    /// Bytes of the run (of a plain block; 0 from the csv crate).
+    bytes: usize,
 }
 
 /// A problem with one record, found while parsing (see [`TrialReader::take`] for the messages).
@@ -107,21 +110,23 @@ impl Parsed {
         let mut starts: Vec<usize> = Vec::with_capacity(columns.width + 1);
         let mut line = 0;
         starts.push(0);
-        for at in memchr::memchr2_iter(b',', b'\n', block) {
-            if block[at] == b',' {
+        // Byte by byte: a comma every few bytes is too close for a vector search to gain.
+        for (at, &b) in block.iter().enumerate() {
+            if b == b',' {
                 starts.push(at + 1);
-                continue;
+            } else if b == b'\n' {
+                parsed.line(block, columns, &mut starts, line, at);
+                line += 1;
+                starts.clear();
+                starts.push(at + 1);
             }
-            parsed.line(block, columns, &mut starts, line, at);
-            line += 1;
-            starts.clear();
-            starts.push(at + 1);
         }
         // The last line of the file may have no line break.
         if starts[0] < block.len() {
             parsed.line(block, columns, &mut starts, line, block.len());
         }
         parsed.newlines = line;
+        parsed.bytes = block.len();
         parsed
     }
 
@@ -153,10 +158,9 @@ impl Parsed {
     }
 }
 
-/// Whether a block is plain: no quote, and no carriage return but before a line feed.
+/// Whether a block is plain: no quote, so every line break ends a record.
 fn plain(block: &[u8]) -> bool {
     memchr::memchr(b'"', block).is_none()
-        && memchr::memchr_iter(b'\r', block).all(|at| block.get(at + 1) == Some(&b'\n'))
 }
 
 /// What [`Blocks::fill`] put in the buffer.
@@ -178,24 +182,27 @@ struct Blocks<R> {
     /// The source's read error, once it has failed: reported after the records before it.
     failed: Option<std::io::Error>,
     ended: bool,
+    /// [`BLOCK_BYTES`], but in tests.
+    block_bytes: usize,
 }
 
 impl<R: Read> Blocks<R> {
-    fn new(source: R) -> Self {
+    fn new(source: R, block_bytes: usize) -> Self {
         Blocks {
             source,
+            block_bytes,
             carry: Vec::new(),
             failed: None,
             ended: false,
         }
     }
 
-    /// Fills `block` with the next [`BLOCK_BYTES`] or so: cut after its last line break when it
-    /// is plain and the source goes on.
-    fn fill(&mut self, block: &mut Vec<u8>) -> Fill {
+    /// Fills `block` with the next `bytes` or so: cut after its last line break when it is plain
+    /// and the source goes on (more when a line is longer).
+    fn fill(&mut self, block: &mut Vec<u8>, bytes: usize) -> Fill {
         block.clear();
         block.append(&mut self.carry);
-        let mut want = BLOCK_BYTES;
+        let mut want = bytes;
         loop {
             self.read_to(block, want);
             // A line longer than a block (only from a source without the opener's record limit)
@@ -234,18 +241,14 @@ impl<R: Read> Blocks<R> {
     /// [`READ_BYTES`] at a time: a read that fails (a record over the opener's limit) loses what
     /// it read, so the lines before the failure are not lost with it.
     fn read_to(&mut self, block: &mut Vec<u8>, want: usize) {
+        block.reserve(want.saturating_sub(block.len()));
         while block.len() < want && !self.ended {
-            let start = block.len();
-            block.resize(want.min(start + READ_BYTES), 0);
-            match self.source.read(&mut block[start..]) {
-                Ok(0) => {
-                    block.truncate(start);
-                    self.ended = true;
-                }
-                Ok(n) => block.truncate(start + n),
-                Err(e) if e.kind() == std::io::ErrorKind::Interrupted => block.truncate(start),
+            let piece = (want - block.len()).min(READ_BYTES) as u64;
+            // Into the spare capacity, without zeroing it first; what was read stays on error.
+            match (&mut self.source).take(piece).read_to_end(block) {
+                Ok(n) if (n as u64) < piece => self.ended = true,
+                Ok(_) => {}
                 Err(e) => {
-                    block.truncate(start);
                     self.failed = Some(e);
                     self.ended = true;
                 }
@@ -286,6 +289,71 @@ impl<R: Read> Read for Rest<R> {
     }
 }
 
+/// A source that notes where its empty lines are, for the line numbers of the records after them:
+/// the csv crate skips empty lines, but gives the record after them the line it started looking
+/// on, a line early for each.
+struct EmptyLines<R> {
+    source: R,
+    /// Bytes read so far.
+    read: u64,
+    /// Whether the last byte read was a line feed (true at the start: a line starts there).
+    after_line_feed: bool,
+    /// Runs of empty lines not yet asked about, as (offset of the first one's line feed, lines).
+    runs: std::collections::VecDeque<(u64, u64)>,
+}
+
+impl<R> EmptyLines<R> {
+    fn new(source: R) -> Self {
+        EmptyLines {
+            source,
+            read: 0,
+            after_line_feed: true,
+            runs: std::collections::VecDeque::new(),
+        }
+    }
+
+    /// The empty lines that start at byte `offset`, where the csv crate says a record starts;
+    /// offsets asked about must grow.
+    fn at(&mut self, offset: u64) -> u64 {
+        while let Some(&(start, lines)) = self.runs.front() {
+            if start > offset {
+                break;
+            }
+            self.runs.pop_front();
+            if start == offset {
+                return lines;
+            }
+        }
+        0
+    }
+}
+
+impl<R: Read> Read for EmptyLines<R> {
+    fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
+        let n = self.source.read(buf)?;
+        let bytes = &buf[..n];
+        for at in memchr::memchr_iter(b'\n', bytes) {
+            let empty = match at.checked_sub(1) {
+                Some(before) => bytes[before] == b'\n',
+                None => self.after_line_feed,
+            };
+            if !empty {
+                continue;
+            }
+            let offset = self.read + at as u64;
+            match self.runs.back_mut() {
+                Some((start, lines)) if *start + *lines == offset => *lines += 1,
+                _ => self.runs.push_back((offset, 1)),
+            }
+        }
+        if let Some(&last) = bytes.last() {
+            self.after_line_feed = last == b'\n';
+        }
+        self.read += n as u64;
+        Ok(n)
+    }
+}
+
 /// Where the header of a plain first block ends (after its line break), past any empty lines
 /// before it; `None` when the block holds no whole header line.
 fn header_end(block: &[u8]) -> Option<usize> {
@@ -306,21 +374,40 @@ enum Layout {
 }
 
 /// A reader of the whole file, header first.
-fn csv_reader<R: Read>(source: R) -> csv::Reader<R> {
-    // Records of another length than the header's are reported by the reader, not the crate.
+fn csv_reader<R: Read>(source: R) -> csv::Reader<EmptyLines<R>> {
+    records(source, true)
+}
+
+/// A csv crate reader whose records end at line feeds (see the module's documentation) and may
+/// have any number of fields: one of another length than the header's is reported by the
+/// reader, not the crate.
+fn records<R: Read>(source: R, header: bool) -> csv::Reader<EmptyLines<R>> {
     csv::ReaderBuilder::new()
-        .has_headers(true)
+        .has_headers(header)
         .flexible(true)
-        .from_reader(source)
+        .terminator(csv::Terminator::Any(b'\n'))
+        .from_reader(EmptyLines::new(source))
+}
+
+/// A field without the carriage return of a CRLF line break, when it is the record's last.
+fn without_cr(field: &[u8], last: bool) -> &[u8] {
+    match field.strip_suffix(b"\r") {
+        Some(field) if last => field,
+        _ => field,
+    }
 }
 
 impl TrialReader<'_> {
     /// Reads a CSV trials file with an `id` column and `fold_1` … `fold_K` columns, or
     /// scikit-learn's results as pandas writes them.
     pub fn read_csv(&mut self, source: impl Read) {
-        let mut blocks = Blocks::new(source);
+        self.read_csv_in_blocks(source, BLOCK_BYTES);
+    }
+
+    fn read_csv_in_blocks(&mut self, source: impl Read, block_bytes: usize) {
+        let mut blocks = Blocks::new(source, block_bytes);
         let mut block = Vec::new();
-        let first = blocks.fill(&mut block);
+        let first = blocks.fill(&mut block, block_bytes);
         let header = (first == Fill::Plain)
             .then(|| header_end(&block))
             .flatten()
@@ -417,66 +504,84 @@ impl TrialReader<'_> {
         None
     }
 
-    /// Reads the records after the header, `block` the first of them (whole lines of a plain
-    /// block) on `line`: plain blocks two at a time, then the csv crate from the first block
-    /// that is not plain.
+    /// Reads the records after the header, `mine` the first of them (whole lines of a plain
+    /// block) on `line`, until the first block that is not plain, from which the csv crate reads.
+    ///
+    /// In each round the main thread pushes the trials of the round before and parses a block of
+    /// [`Blocks::block_bytes`] while a second thread parses the next block, three times as
+    /// large: pushing trials one by one in file order is the one part that cannot be shared.
     fn read_blocks<R: Read>(
         &mut self,
         mut blocks: Blocks<R>,
-        mut block: Vec<u8>,
+        mut mine: Vec<u8>,
         columns: &Columns,
         mut line: u64,
     ) {
-        let mut next = Vec::new();
+        let size = blocks.block_bytes;
+        let mut theirs = Vec::new();
+        let mut before: Vec<Parsed> = Vec::new();
         loop {
-            let fill = blocks.fill(&mut next);
-            let (this, after) = if fill == Fill::Plain {
-                std::thread::scope(|scope| {
-                    let after = scope.spawn(|| Parsed::plain(&next, columns));
-                    let this = Parsed::plain(&block, columns);
-                    match after.join() {
-                        Ok(after) => (this, Some(after)),
+            let fill = blocks.fill(&mut theirs, 3 * size);
+            let (going, parsed) = std::thread::scope(|scope| {
+                let other =
+                    (fill == Fill::Plain).then(|| scope.spawn(|| Parsed::plain(&theirs, columns)));
+                let going = self.take_all(&before, columns, &mut line);
+                let mut parsed = vec![Parsed::plain(&mine, columns)];
+                if let Some(other) = other {
+                    match other.join() {
+                        Ok(other) => parsed.push(other),
                         Err(panic) => std::panic::resume_unwind(panic),
                     }
-                })
-            } else {
-                (Parsed::plain(&block, columns), None)
-            };
-            if let Some(id_bytes) = this.id_ends.first() {
-                self.expect_records_like(block.len() / this.lines.len(), *id_bytes);
-            }
-            for parsed in std::iter::once(this).chain(after) {
-                if !self.take(&parsed, columns, line) {
-                    return;
                 }
-                line += parsed.newlines;
+                (going, parsed)
+            });
+            if !going {
+                return;
             }
+            before = parsed;
             let other = match fill {
-                Fill::Plain => match blocks.fill(&mut block) {
+                Fill::Plain => match blocks.fill(&mut mine, size) {
                     Fill::Plain => continue,
-                    Fill::Other => block,
+                    Fill::Other => mine,
                     Fill::End => break,
                 },
-                Fill::Other => next,
+                Fill::Other => theirs,
                 Fill::End => break,
             };
+            if !self.take_all(&before, columns, &mut line) {
+                return;
+            }
             // The block starts a record: read without a header, lines counted from `line`.
-            let csv = csv::ReaderBuilder::new()
-                .has_headers(false)
-                .flexible(true)
-                .from_reader(blocks.rest(other));
+            let csv = records(blocks.rest(other), false);
             self.read_records(csv, columns, line);
             return;
         }
-        if let Some(e) = blocks.failed.take() {
+        if self.take_all(&before, columns, &mut line)
+            && let Some(e) = blocks.failed.take()
+        {
             self.read_failed(&e, line);
         }
+    }
+
+    /// [`TrialReader::take`] for each of `parsed` in turn, `line` the first one's first line and
+    /// then the line after the last one.
+    fn take_all(&mut self, parsed: &[Parsed], columns: &Columns, line: &mut u64) -> bool {
+        for parsed in parsed {
+            if let (Some(&id_bytes), false) = (parsed.id_ends.first(), parsed.lines.is_empty()) {
+                self.expect_records_like(parsed.bytes / parsed.lines.len(), id_bytes);
+            }
+            if !self.take(parsed, columns, *line) {
+                return false;
+            }
+            *line += parsed.newlines;
+        }
+        true
     }
 
     /// Reads records with the csv crate, its line 1 being the file's line `first_line`.
     fn read_records<R: Read>(
         &mut self,
-        mut csv: csv::Reader<R>,
+        mut csv: csv::Reader<EmptyLines<R>>,
         columns: &Columns,
         first_line: u64,
     ) {
@@ -485,7 +590,8 @@ impl TrialReader<'_> {
         loop {
             match csv.read_byte_record(&mut record) {
                 Ok(true) => {
-                    let line = record.position().map_or(1, csv::Position::line) - 1;
+                    let (line, byte) = record.position().map_or((1, 0), |p| (p.line(), p.byte()));
+                    let line = line - 1 + csv.get_mut().at(byte);
                     if parsed.lines.is_empty() && parsed.problems.is_empty() {
                         let bytes = record.as_slice().len() + record.len();
                         self.expect_records_like(
@@ -493,9 +599,13 @@ impl TrialReader<'_> {
                             record.get(columns.id).map_or(0, <[u8]>::len),
                         );
                     }
-                    parsed.record(columns, line, record.len(), |k| {
-                        record.get(k).unwrap_or(b"")
-                    });
+                    let fields = record.len();
+                    let cell = |k: usize| without_cr(record.get(k).unwrap_or(b""), k + 1 == fields);
+                    // A line holding only the CR of a CRLF is an empty line.
+                    if fields == 1 && cell(0).is_empty() {
+                        continue;
+                    }
+                    parsed.record(columns, line, fields, cell);
                     if parsed.lines.len() + parsed.problems.len() >= RECORDS_PER_BATCH {
                         if !self.take(&parsed, columns, first_line) {
                             return;
@@ -593,5 +703,178 @@ impl TrialReader<'_> {
             self.push(place, "", id, scores);
         }
         true
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::manifest::Metric;
+    use crate::manifest::trials::Selected;
+    use proptest::prelude::*;
+
+    fn reader() -> TrialReader<'static> {
+        TrialReader::new("t.csv", Metric::Accuracy, 2).select(Selected {
+            folds: vec![0.8, 0.9],
+            named: None,
+        })
+    }
+
+    /// The summary or the problems, as text.
+    fn outcome(reader: TrialReader<'_>) -> String {
+        format!("{:?}", reader.finish())
+    }
+
+    /// Read in blocks of `block_bytes`.
+    fn in_blocks(text: &[u8], block_bytes: usize) -> String {
+        let mut reader = reader();
+        reader.read_csv_in_blocks(text, block_bytes);
+        outcome(reader)
+    }
+
+    /// Read by the csv crate alone, record by record.
+    fn by_record(text: &[u8]) -> String {
+        let mut reader = reader();
+        let mut csv = csv_reader(text);
+        if let Some(header) = reader.header(&mut csv) {
+            match reader.layout(&header) {
+                Some(Layout::Trials(columns)) => reader.read_records(csv, &columns, 1),
+                Some(Layout::CvResults) => reader.read_cv_results_csv(&header, csv),
+                None => {}
+            }
+        }
+        outcome(reader)
+    }
+
+    /// A cell: mostly scores, sometimes not a number, empty, padded, quoted or spanning lines.
+    fn cell() -> impl Strategy<Value = String> {
+        prop_oneof![
+            6 => prop_oneof![Just("0.8"), Just("0.9"), Just("0.75"), Just("1"), Just("0")]
+                .prop_map(str::to_owned),
+            1 => prop_oneof![
+                Just(""), Just(" 0.5"), Just("1e-1"), Just("x"), Just("\"0.8\""),
+                Just("\"a\nb\""), Just("\"q,\"\"r\""), Just("1.5"), Just("é"),
+            ]
+            .prop_map(str::to_owned),
+        ]
+    }
+
+    fn row() -> impl Strategy<Value = String> {
+        let id = prop_oneof![
+            8 => "[a-d]{1,2}",
+            1 => Just(String::new()),
+            1 => Just("\"a\"".to_owned()),
+        ];
+        (id, proptest::collection::vec(cell(), 1..4)).prop_map(|(id, cells)| {
+            std::iter::once(id)
+                .chain(cells)
+                .collect::<Vec<_>>()
+                .join(",")
+        })
+    }
+
+    fn file() -> impl Strategy<Value = Vec<u8>> {
+        let header = prop_oneof![
+            Just("id,fold_1,fold_2"),
+            Just("\u{feff}id,fold_1,fold_2"),
+            Just("fold_2,id,fold_1"),
+            Just("id,\"fold_1\",fold_2"),
+            Just("id,fold_1"),
+        ];
+        let ending = prop_oneof![Just("\n"), Just("\r\n"), Just("\n\n"), Just("\r")];
+        (
+            header,
+            proptest::collection::vec((row(), ending), 0..40),
+            any::<bool>(),
+        )
+            .prop_map(|(header, rows, last_break)| {
+                let mut text = format!("{header}\n");
+                for (row, ending) in rows {
+                    text.push_str(&row);
+                    text.push_str(ending);
+                }
+                if !last_break {
+                    text.truncate(text.trim_end_matches(['\r', '\n']).len());
+                }
+                text.into_bytes()
+            })
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(512))]
+
+        /// Blocks of any size, plain or not, give what the csv crate gives read record by
+        /// record: the same trials, the same problems on the same lines.
+        #[test]
+        fn blocks_read_as_the_csv_crate_reads_records(text in file(), block in 1usize..120) {
+            prop_assert_eq!(in_blocks(&text, block), by_record(&text));
+        }
+
+        /// A plain file of many blocks, read on two threads, is read as one block would be.
+        #[test]
+        fn plain_blocks_on_two_threads_read_as_one(
+            rows in proptest::collection::vec(("[a-z]{1,3}", 0u32..=10_000, 0u32..=10_000), 1..300),
+            crlf in any::<bool>(),
+            block in 16usize..400,
+        ) {
+            let ending = if crlf { "\r\n" } else { "\n" };
+            let mut text = format!("id,depth,fold_1,fold_2{ending}");
+            for (id, a, b) in &rows {
+                text.push_str(&format!("{id},3,{},{}{ending}", f64::from(*a) / 1e4, f64::from(*b) / 1e4));
+            }
+            let text = text.into_bytes();
+            prop_assert!(plain(&text));
+            prop_assert_eq!(in_blocks(&text, block), in_blocks(&text, BLOCK_BYTES));
+            prop_assert_eq!(in_blocks(&text, block), by_record(&text));
+        }
+    }
+
+    /// The line and message of each problem of `text` read in blocks of `block_bytes`.
+    fn lines_of_problems(text: &[u8], block_bytes: usize) -> Vec<(u64, String)> {
+        let mut reader = TrialReader::new("t.csv", Metric::Accuracy, 2).select(Selected {
+            folds: vec![0.8, 0.9],
+            named: None,
+        });
+        reader.read_csv_in_blocks(text, block_bytes);
+        match reader.finish() {
+            Ok(summary) => panic!("no problems: {summary:?}"),
+            Err(problems) => problems
+                .into_iter()
+                .map(|p| (p.line.unwrap_or(0), p.message))
+                .collect(),
+        }
+    }
+
+    /// Lines counted by hand: the problems name the line each bad record starts on, whether the
+    /// file is read in blocks or (quoted from line 6 on) by the csv crate, through CRLF line
+    /// breaks, empty lines and a quoted field over two lines.
+    #[test]
+    fn problems_name_the_line_each_record_starts_on() {
+        let text = "id,fold_1,fold_2\r\n\
+                    a,0.8,0.9\r\n\
+                    \r\n\
+                    b,x,0.9\r\n\
+                    \n\
+                    \"c\",0.8,\"y\"\r\n\
+                    \"d\ne\",0.8\r\n\
+                    \r\n\
+                    \n\
+                    f,0.8,0.9,1\n\
+                    a,0.8,0.9";
+        // One block, or blocks of a few bytes, so that both readers see the quoted records.
+        for block in [3, 1 << 20] {
+            let problems = lines_of_problems(text.as_bytes(), block);
+            assert_eq!(
+                problems,
+                [
+                    (4, "expected a number, found \"x\"".to_owned()),
+                    (6, "expected a number, found \"y\"".to_owned()),
+                    (7, "the row has 2 fields, but the header has 3".to_owned()),
+                    (11, "the row has 4 fields, but the header has 3".to_owned()),
+                    (12, "trial id \"a\" appears twice".to_owned()),
+                ],
+                "block of {block} bytes"
+            );
+        }
     }
 }
