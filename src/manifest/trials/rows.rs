@@ -391,9 +391,10 @@ fn records<R: Read>(source: R, header: bool) -> csv::Reader<EmptyLines<R>> {
 
 /// A field without the carriage return of a CRLF line break, when it is the record's last.
 fn without_cr(field: &[u8], last: bool) -> &[u8] {
-    match field.strip_suffix(b"\r") {
-        Some(field) if last => field,
-        _ => field,
+    if last {
+        field.strip_suffix(b"\r").unwrap_or(field)
+    } else {
+        field
     }
 }
 
