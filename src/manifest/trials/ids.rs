@@ -2,6 +2,10 @@
 
 use std::hash::BuildHasher;
 
+/// Ids from which [`TrialIds::repeats`] sorts on two threads (fewer are sorted sooner than a
+/// thread starts).
+const PARALLEL_IDS: usize = 1 << 16;
+
 /// Every trial id of a source, end to end in one buffer. The ids that repeat an earlier one are
 /// found once the source is read ([`TrialIds::repeats`]): keys made of a hash of each id and its
 /// ordinal are sorted, and ids whose hashes meet are compared byte for byte, so a collision never
@@ -63,8 +67,9 @@ impl<S: BuildHasher + Sync> TrialIds<S> {
     /// among them).
     ///
     /// Each key holds an id's hash in its high bits and its ordinal in the low bits, so sorting
-    /// the keys brings ids of equal hash together in ordinal order. The keys are split on their
-    /// top bit and the halves sorted on two threads: ids of equal hash fall in the same half.
+    /// the keys brings ids of equal hash together in ordinal order. Past [`PARALLEL_IDS`] ids the
+    /// keys are split on their top bit and the halves sorted on two threads: ids of equal hash
+    /// fall in the same half.
     pub(super) fn repeats(&self) -> Vec<u32> {
         let n = self.ends.len();
         if n < 2 {
@@ -73,12 +78,16 @@ impl<S: BuildHasher + Sync> TrialIds<S> {
         // Ordinals are below 2^bits; bits <= 32, since ordinals are u32.
         let bits = u64::BITS - ((n - 1) as u64).leading_zeros();
         let ordinal_mask = (1u64 << bits) - 1;
-        let (mut low, mut high): (Vec<u64>, Vec<u64>) = (0..n)
-            .map(|i| {
-                let hash = self.hasher.hash_one(self.get(i as u32));
-                (hash & !ordinal_mask) | i as u64
-            })
-            .partition(|key| key >> 63 == 0);
+        let keys = (0..n).map(|i| {
+            let hash = self.hasher.hash_one(self.get(i as u32));
+            (hash & !ordinal_mask) | i as u64
+        });
+        if n < PARALLEL_IDS {
+            let mut repeats = self.repeats_among(&mut keys.collect::<Vec<_>>(), ordinal_mask);
+            repeats.sort_unstable();
+            return repeats;
+        }
+        let (mut low, mut high): (Vec<u64>, Vec<u64>) = keys.partition(|key| key >> 63 == 0);
         let mut repeats = std::thread::scope(|scope| {
             let other = scope.spawn(|| self.repeats_among(&mut high, ordinal_mask));
             let mut repeats = self.repeats_among(&mut low, ordinal_mask);
@@ -180,8 +189,10 @@ mod tests {
 
     #[test]
     fn one_id_repeated_throughout_is_a_repeat_everywhere_but_first() {
-        let ids = vec![b"x".to_vec(); 5000];
-        let expected: Vec<u32> = (1..5000).collect();
+        // Past PARALLEL_IDS, so the two-thread sort is taken too.
+        let n = PARALLEL_IDS as u32 + 5000;
+        let ids = vec![b"x".to_vec(); n as usize];
+        let expected: Vec<u32> = (1..n).collect();
         assert_eq!(repeats::<foldhash::fast::RandomState>(&ids, 0), expected);
         assert_eq!(repeats::<Colliding>(&ids, 0), expected);
     }

@@ -6,9 +6,9 @@
 //! one object per line, `{"id": …, "params": {…}, "fold_scores": [ … ]}`. Each trial feeds the
 //! Tibshirani & Tibshirani accumulator and a histogram of mean scores, whose sizes depend on the
 //! number of folds only; the one thing kept per trial is its id ([`TrialIds`]: the id's bytes, 4
-//! bytes of index and 4 of line number), so that a duplicate is caught exactly. scikit-learn's `cv_results_` as
-//! pandas writes it is read too ([`super::sklearn`]); its JSON form is parsed whole, so it has a
-//! smaller size limit.
+//! bytes of index and 4 of line number), so that a duplicate is caught exactly and named with its
+//! line. CSV is read by [`rows`]. scikit-learn's `cv_results_` as pandas writes it is read too
+//! ([`super::sklearn`]); its JSON form is parsed whole, so it has a smaller size limit.
 //!
 //! The bias is computed for the configuration the manifest reports, never for whichever trial
 //! has the best mean: the manifest may name it (`search.selected_trial`), and its fold scores
@@ -435,10 +435,10 @@ impl<'a> TrialReader<'a> {
         self
     }
 
-    /// Sizes the id table for the records a source of [`TrialReader::source_bytes`] holds if
-    /// every record is as long as `record` (the first). A record takes at least one byte per
-    /// field (its comma or line break), so this is never more than the most records a file of
-    /// that size could hold.
+    /// Sizes the id store for the records a source of [`TrialReader::source_bytes`] holds if
+    /// every record takes `record_bytes` (counting each field's comma or line break, so that this
+    /// is never more than the most records a file of that size could hold) and every id
+    /// `id_bytes`. Only the first call sizes; later ones do nothing.
     fn expect_records_like(&mut self, record_bytes: usize, id_bytes: usize) {
         let Some(bytes) = self.source_bytes.take() else {
             return;
@@ -461,14 +461,19 @@ impl<'a> TrialReader<'a> {
             Ok(more) => more,
             Err(e) => {
                 let (line, reason) = crate::opener::csv_failure(&e);
-                self.problem(
-                    Place { line, column: None },
-                    "(row)".into(),
-                    format!("cannot read the row: {reason}"),
-                );
+                self.unreadable_row(line, &reason);
                 false
             }
         }
+    }
+
+    /// Reports that the source could not be read at `line`, and why.
+    fn unreadable_row(&mut self, line: Option<u64>, reason: &str) {
+        self.problem(
+            Place { line, column: None },
+            "(row)".into(),
+            format!("cannot read the row: {reason}"),
+        );
     }
 
     /// The columns of the scorer to read from scikit-learn's results (a problem when none).
@@ -488,7 +493,7 @@ impl<'a> TrialReader<'a> {
     fn read_cv_results_csv<R: std::io::Read>(
         &mut self,
         header: &csv::StringRecord,
-        mut csv: csv::Reader<R>,
+        mut csv: csv::Reader<rows::EmptyLines<R>>,
     ) {
         let columns: Vec<String> = header.iter().map(|h| h.trim().to_owned()).collect();
         let Some(layout) = self.cv_results_layout(&columns) else {
@@ -499,7 +504,11 @@ impl<'a> TrialReader<'a> {
             if !self.next_record(&mut csv, &mut record) {
                 return;
             }
-            let line = record.position().map(|p| p.line()).unwrap_or(0);
+            let line = rows::record_line(&mut csv, record.position());
+            // A line holding only the CR of a CRLF line break is an empty line.
+            if record.len() == 1 && record[0].trim().is_empty() {
+                continue;
+            }
             if record.len() != columns.len() {
                 self.ragged(line, record.len(), columns.len());
                 continue;
@@ -718,14 +727,12 @@ impl<'a> TrialReader<'a> {
         }
         // Stable: problems of one tag stay in the order they were found.
         self.problems.sort_by_key(|(tag, _)| *tag);
-        let keep = self.problems.partition_point(|(tag, _)| *tag != u64::MAX);
-        let mut rest = self.problems.split_off(keep);
         self.problems.truncate(MAX_PROBLEMS);
-        self.problems.append(&mut rest);
     }
 
     /// The summary, or every problem found.
     pub fn finish(mut self) -> Result<TrialSummary, Vec<Diagnostic>> {
+        self.note_repeats();
         if let (Some(s), false) = (&self.scorer, self.cv_results) {
             let problem = Diagnostic::at(
                 &s.file,
@@ -733,10 +740,8 @@ impl<'a> TrialReader<'a> {
                 s.path.clone(),
                 "scorer names a column set of scikit-learn's cv_results_, but the trials are not a scikit-learn results file",
             );
-            self.tag = u64::MAX;
             self.note(problem);
         }
-        self.note_repeats();
         if !self.problems.is_empty() {
             return Err(self.problems.into_iter().map(|(_, p)| p).collect());
         }

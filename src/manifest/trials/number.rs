@@ -15,8 +15,8 @@ const EXACT_POWERS_OF_TEN: [f64; 23] = [
 ];
 
 /// A number written as plain decimal digits with an optional fraction (`0.8123`, `1`, `12.50`),
-/// parsed without the general parser. Its digits, read as one integer m, are at most 2^53 and the
-/// k digits after the point at most 22, so m and 10^k are both exact in an f64 and m / 10^k is
+/// parsed without the general parser. Its digits, at most 19 and read as one integer m, are at
+/// most 2^53 and the k digits after the point at most 19, so m and 10^k are both exact in an f64 and m / 10^k is
 /// one correctly rounded division: the correctly rounded value of the decimal, which is what
 /// `str::parse::<f64>` returns (the exact case of Clinger 1990, "How to read floating point
 /// numbers accurately"). `None` for anything else (a sign, an exponent, white space, `.5`, `5.`,
