@@ -23,7 +23,8 @@ use crate::manifest::raw::RawModel;
 /// How the files a model names are read.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
 pub enum Readers {
-    /// Concurrently, one thread a file (the id lists on one), merged in validation's order.
+    /// Concurrently: the id lists (on two threads), then the predictions files (one thread a
+    /// file), merged in validation's order.
     #[default]
     Concurrent,
     /// In turn on the calling thread.
@@ -104,9 +105,33 @@ impl Read {
     }
 }
 
-/// Runs the reads at once, the first on the calling thread, each filling its own result.
+/// Runs the reads in two waves: the id lists first (their reader sorts the two lists on two
+/// threads of its own), then the predictions files at once. Each wave keeps two cores busy, and
+/// only the lists' overlap outlives the first, so peak memory is the larger wave's rather than
+/// the sum of all four files (about 1.2 GiB against 0.7 GiB for 10^7 rows a file).
 fn run_all(reads: Vec<Read>) -> Prefetched {
-    let results: Vec<Got> = std::thread::scope(|scope| {
+    let (ids, predictions): (Vec<Read>, Vec<Read>) =
+        reads.into_iter().partition(|r| matches!(r, Read::Ids(_)));
+    let mut prefetched = Prefetched::default();
+    for wave in [ids, predictions] {
+        let results = run_at_once(&wave);
+        for pair in wave.into_iter().zip(results) {
+            match pair {
+                (Read::Ids(read), Got::Ids(got)) => prefetched.ids.push((read, got)),
+                (Read::Predictions(read), Got::Predictions(got)) => {
+                    prefetched.predictions.push((read, got));
+                }
+                // Each read gives its own kind of result; anything else is read again when asked.
+                _ => {}
+            }
+        }
+    }
+    prefetched
+}
+
+/// Runs the reads at once, the first on the calling thread, each filling its own result.
+fn run_at_once(reads: &[Read]) -> Vec<Got> {
+    std::thread::scope(|scope| {
         let spawned: Vec<_> = reads
             .iter()
             .skip(1)
@@ -122,19 +147,7 @@ fn run_all(reads: Vec<Read>) -> Prefetched {
             );
         }
         results
-    });
-    let mut prefetched = Prefetched::default();
-    for pair in reads.into_iter().zip(results) {
-        match pair {
-            (Read::Ids(read), Got::Ids(got)) => prefetched.ids.push((read, got)),
-            (Read::Predictions(read), Got::Predictions(got)) => {
-                prefetched.predictions.push((read, got));
-            }
-            // Each read gives its own kind of result; anything else is read again when asked.
-            _ => {}
-        }
-    }
-    prefetched
+    })
 }
 
 /// The result kept for `read`, taken out of `kept`.
