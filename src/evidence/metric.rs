@@ -14,7 +14,7 @@
 
 use serde::Serialize;
 
-use super::{Columns, PredictionSet, pair_by_id};
+use super::{Class, Columns, PredictionSet, pair_by_id};
 use crate::manifest::Metric;
 use crate::manifest::raw::F1Mode;
 use crate::stats::{
@@ -131,7 +131,10 @@ fn binary_scores(set: &PredictionSet) -> Result<(&[f64], Vec<bool>), String> {
     }
     let score = score.as_ref().ok_or("ROC AUC needs a `score` column")?;
     let positive = set.positive.ok_or("ROC AUC needs `positive_class`")?;
-    Ok((score, actual.iter().map(|&a| a == positive).collect()))
+    Ok((
+        score,
+        actual.iter().map(|&a| u32::from(a) == positive).collect(),
+    ))
 }
 
 /// Recomputes `metric` with its interval; `Err` says why it cannot be. The interval is clipped
@@ -345,6 +348,42 @@ pub struct Comparison {
 /// Compares the model with its baseline on their shared rows. `model_pieces` are the model's
 /// DeLong pieces on all its rows ([`Recomputed::auc_pieces`]), used for ROC AUC when every model
 /// row is paired (a component depends on every other row, so a subset is computed afresh).
+/// Pairs past which [`tally`] counts on two threads.
+const TALLY_ON_TWO_THREADS: usize = 1 << 20;
+
+/// Sums the counts `count` gives each pair (row in the model, row in the baseline): on two
+/// threads, a half each, past [`TALLY_ON_TWO_THREADS`] pairs. The columns are read in id
+/// order, out of file order, so a pass is bound by memory latency; counts are whole numbers,
+/// so the sums are the same on any number of threads.
+fn tally<const N: usize>(
+    pairs: &[(u32, u32)],
+    count: impl Fn(usize, usize) -> [u64; N] + Sync,
+) -> [u64; N] {
+    let sum = |part: &[(u32, u32)]| {
+        part.iter().fold([0u64; N], |mut sums, &(i, j)| {
+            for (s, c) in sums.iter_mut().zip(count(i as usize, j as usize)) {
+                *s += c;
+            }
+            sums
+        })
+    };
+    if pairs.len() < TALLY_ON_TWO_THREADS {
+        return sum(pairs);
+    }
+    let (first, second) = pairs.split_at(pairs.len() / 2);
+    let (a, b) = std::thread::scope(|scope| {
+        let other = scope.spawn(|| sum(second));
+        let a = sum(first);
+        (
+            a,
+            other
+                .join()
+                .unwrap_or_else(|e| std::panic::resume_unwind(e)),
+        )
+    });
+    std::array::from_fn(|k| a[k] + b[k])
+}
+
 pub fn compare(
     model: &PredictionSet,
     baseline: &PredictionSet,
@@ -393,14 +432,14 @@ pub fn compare(
             },
         ) => {
             // The baseline's class indices, translated to the model's by name once.
-            let to_model: Vec<Option<u32>> = cb
+            let to_model: Vec<Option<Class>> = cb
                 .iter()
-                .map(|name| ca.iter().position(|c| c == name).map(|i| i as u32))
+                .map(|name| ca.iter().position(|c| c == name).map(|i| i as Class))
                 .collect();
-            comparison.label_mismatches = pairs
-                .iter()
-                .filter(|&&(i, j)| to_model[ab[j as usize] as usize] != Some(aa[i as usize]))
-                .count() as u64;
+            let [mismatches] = tally(&pairs, |i, j| {
+                [u64::from(to_model[ab[j] as usize] != Some(aa[i]))]
+            });
+            comparison.label_mismatches = mismatches;
             match metric {
                 Metric::Accuracy => {
                     let (pa, pb) = (
@@ -409,16 +448,14 @@ pub fn compare(
                         pb.as_ref()
                             .ok_or("McNemar's test needs the baseline's `prediction` column")?,
                     );
-                    let (mut b, mut c) = (0u64, 0u64);
-                    for &(i, j) in &pairs {
-                        let right_a = pa[i as usize] == aa[i as usize];
-                        let right_b = pb[j as usize] == ab[j as usize];
-                        match (right_a, right_b) {
-                            (true, false) => b += 1,
-                            (false, true) => c += 1,
-                            _ => {}
-                        }
-                    }
+                    // b: rows only the model gets right; c: rows only the baseline does.
+                    let [b, c] = tally(&pairs, |i, j| {
+                        let (right_a, right_b) = (pa[i] == aa[i], pb[j] == ab[j]);
+                        [
+                            u64::from(right_a && !right_b),
+                            u64::from(right_b && !right_a),
+                        ]
+                    });
                     let test =
                         stats::mcnemar_auto(b, c, stats::MCNEMAR_EXACT_BELOW).map_err(err)?;
                     comparison.improvement = (b as f64 - c as f64) / pairs.len() as f64;
@@ -444,7 +481,7 @@ pub fn compare(
                     let positive = model.positive.ok_or("ROC AUC needs `positive_class`")?;
                     let labels: Vec<bool> = pairs
                         .iter()
-                        .map(|&(i, _)| aa[i as usize] == positive)
+                        .map(|&(i, _)| u32::from(aa[i as usize]) == positive)
                         .collect();
                     let xb: Vec<f64> = pairs.iter().map(|&(_, j)| sb[j as usize]).collect();
                     let every_row = pairs.len() == model.rows();
@@ -566,10 +603,8 @@ pub fn compare(
                 prediction: yb,
             },
         ) => {
-            comparison.label_mismatches = pairs
-                .iter()
-                .filter(|&&(i, j)| ta[i as usize] != tb[j as usize])
-                .count() as u64;
+            let [mismatches] = tally(&pairs, |i, j| [u64::from(ta[i] != tb[j])]);
+            comparison.label_mismatches = mismatches;
             let loss: fn(f64, f64) -> f64 = match metric {
                 Metric::Mae => |t, y| (t - y).abs(),
                 _ => |t, y| (t - y) * (t - y),
@@ -701,7 +736,7 @@ mod tests {
             ids,
             columns: Columns::Classification {
                 classes: vec!["no".into(), "yes".into()],
-                actual: rows.iter().map(|&r| u32::from(positive[r])).collect(),
+                actual: rows.iter().map(|&r| Class::from(positive[r])).collect(),
                 predicted: None,
                 score: Some(rows.iter().map(|&r| score[r]).collect()),
                 prob_true: None,

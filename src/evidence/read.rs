@@ -8,7 +8,7 @@ use std::collections::HashMap;
 use std::path::Path;
 
 use super::columnar::{self, Cell};
-use super::{Columns, IdArena, PredictionSet};
+use super::{Class, Columns, IdArena, MAX_CLASSES, PredictionSet};
 use crate::diag::{Diagnostic, Place};
 use crate::manifest::Task;
 
@@ -318,7 +318,7 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
             .filter_map(|(i, h)| h.strip_prefix(b"prob_").map(|c| (c.to_vec(), i)))
             .collect();
         let mut actual = super::with_room(reserved(true));
-        let mut predicted: Vec<u32> = super::with_room(reserved(pred_col.is_some()));
+        let mut predicted: Vec<Class> = super::with_room(reserved(pred_col.is_some()));
         let mut score: Vec<f64> = super::with_room(reserved(score_col.is_some()));
         let mut prob_class: Vec<f64> = super::with_room(reserved(!prob_cols.is_empty()));
         read_rows(&mut rows, &mut problems, |record, line, p| {
@@ -384,7 +384,7 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
                 actual
                     .iter()
                     .zip(&score)
-                    .map(|(&a, &s)| if a == pos { s } else { 1.0 - s })
+                    .map(|(&a, &s)| if u32::from(a) == pos { s } else { 1.0 - s })
                     .collect()
             })
         } else {
@@ -666,7 +666,7 @@ fn class(
     line: At,
     what: &str,
     p: &mut Problems,
-) -> Option<u32> {
+) -> Option<Class> {
     let mut digits = String::new();
     let cell = record.text(col, &mut digits);
     if cell.is_empty() {
@@ -682,8 +682,7 @@ fn class(
         );
         return None;
     }
-    let index = classes.get(cell);
-    if index.is_none() {
+    let Some(index) = classes.get(cell) else {
         p.add(
             line,
             col,
@@ -694,8 +693,23 @@ fn class(
                 classes.names.join(", ")
             ),
         );
+        return None;
+    };
+    let narrow = Class::try_from(index).ok();
+    if narrow.is_none() {
+        p.add(
+            line,
+            col,
+            what,
+            format!(
+                "{:?} would be class {} of the file, and a classification predictions file holds \
+                 at most {MAX_CLASSES} classes",
+                String::from_utf8_lossy(cell),
+                u64::from(index) + 1,
+            ),
+        );
     }
-    index
+    narrow
 }
 
 /// The header record of a CSV file, or the one diagnostic (file and line) that says why it
@@ -713,4 +727,60 @@ pub(super) fn csv_header<R: std::io::Read>(
             format!("cannot read the header: {reason}"),
         )]
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn read(csv: &str) -> Result<PredictionSet, Vec<Diagnostic>> {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("predictions.csv");
+        std::fs::write(&path, csv).unwrap();
+        read_predictions(
+            &path,
+            Expect {
+                task: Task::Multiclass,
+                classes: None,
+                positive: None,
+                named_by: "the test",
+                fingerprint: false,
+            },
+        )
+    }
+
+    /// A file of `classes` distinct labels, each row predicting its own label.
+    fn distinct_labels(classes: usize) -> String {
+        let mut csv = String::from("id,label,prediction\n");
+        for i in 0..classes {
+            csv.push_str(&format!("r{i},c{i},c{i}\n"));
+        }
+        csv
+    }
+
+    /// Classes are stored in two bytes a row ([`Class`]): 2^16 = 65,536 distinct classes are
+    /// read, the next is refused on its own line (header + 65,537 rows), not wrapped around.
+    #[test]
+    fn the_class_past_the_two_byte_limit_is_refused_on_its_line() {
+        let set = read(&distinct_labels(65_536)).unwrap();
+        let Columns::Classification {
+            classes, actual, ..
+        } = &set.columns
+        else {
+            panic!("a classification file");
+        };
+        assert_eq!(classes.len(), 65_536);
+        assert_eq!(actual.last(), Some(&u16::MAX));
+        assert_eq!(classes.last().map(String::as_str), Some("c65535"));
+
+        let problems = read(&distinct_labels(65_537)).unwrap_err();
+        assert_eq!(problems.len(), 1, "{problems:?}");
+        assert_eq!(problems[0].line, Some(65_538));
+        assert_eq!(problems[0].column, Some(2));
+        assert_eq!(
+            problems[0].message,
+            "\"c65536\" would be class 65537 of the file, and a classification predictions file \
+             holds at most 65536 classes"
+        );
+    }
 }
