@@ -46,10 +46,10 @@ fn clean(line: &[u8]) -> &[u8] {
 
 /// Reads an id list whole, in order; `which` (train or test) names it in the one message of its
 /// own. Room for the ids is reserved from the file's size (an upper bound on their bytes) and
-/// the lines in its first bytes ([`super::estimated_rows`]).
+/// the lines in its first bytes ([`super::estimated_rows`]). Lines are taken from the reader's
+/// buffer where they lie; only a line cut off at the buffer's end is copied, to be completed.
 fn read_all(path: &Path, named_by: &str, which: &str) -> Result<IdArena, Diagnostic> {
     let mut reader = open(path, named_by)?;
-    let mut line = Vec::new();
     let head = reader.fill_buf().unwrap_or_default();
     let size = std::fs::metadata(path).map_or(0, |m| m.len());
     let mut ids = IdArena::default();
@@ -58,28 +58,10 @@ fn read_all(path: &Path, named_by: &str, which: &str) -> Result<IdArena, Diagnos
         usize::try_from(size).unwrap_or(0),
     );
     let mut number = 0u64;
+    let mut cut_off = Vec::new();
     loop {
-        line.clear();
-        number += 1;
-        match reader.read_until(b'\n', &mut line) {
-            Ok(0) => return Ok(ids),
-            Ok(_) => {
-                let id = clean(&line);
-                if let Some(at) = crate::evidence::control_at(id) {
-                    return Err(Diagnostic::at(
-                        &path.display().to_string(),
-                        crate::diag::Place::new(number, at as u64 + 1),
-                        "(id)",
-                        crate::evidence::CONTROL_IN_ID,
-                    ));
-                }
-                if !id.is_empty() && ids.push(id).is_none() {
-                    return Err(Diagnostic::file(
-                        path.display().to_string(),
-                        format!("the {which} ids exceed 4 GiB"),
-                    ));
-                }
-            }
+        let buffer = match reader.fill_buf() {
+            Ok(buffer) => buffer,
             Err(e) => {
                 return Err(Diagnostic::at(
                     &path.display().to_string(),
@@ -91,8 +73,57 @@ fn read_all(path: &Path, named_by: &str, which: &str) -> Result<IdArena, Diagnos
                     format!("cannot read: {}", crate::opener::read_reason(&e)),
                 ));
             }
+        };
+        if buffer.is_empty() {
+            if !cut_off.is_empty() {
+                add_line(&mut ids, &cut_off, number + 1, path, which)?;
+            }
+            return Ok(ids);
         }
+        let mut start = 0;
+        for end in memchr::memchr_iter(b'\n', buffer) {
+            number += 1;
+            let line = &buffer[start..=end];
+            if cut_off.is_empty() {
+                add_line(&mut ids, line, number, path, which)?;
+            } else {
+                cut_off.extend_from_slice(line);
+                add_line(&mut ids, &cut_off, number, path, which)?;
+                cut_off.clear();
+            }
+            start = end + 1;
+        }
+        cut_off.extend_from_slice(&buffer[start..]);
+        let read = buffer.len();
+        reader.consume(read);
     }
+}
+
+/// Adds the id on line `number` (with its line break, if it has one) to `ids`; a blank line
+/// adds none.
+fn add_line(
+    ids: &mut IdArena,
+    line: &[u8],
+    number: u64,
+    path: &Path,
+    which: &str,
+) -> Result<(), Diagnostic> {
+    let id = clean(line);
+    if let Some(at) = crate::evidence::control_at(id) {
+        return Err(Diagnostic::at(
+            &path.display().to_string(),
+            crate::diag::Place::new(number, at as u64 + 1),
+            "(id)",
+            crate::evidence::CONTROL_IN_ID,
+        ));
+    }
+    if !id.is_empty() && ids.push(id).is_none() {
+        return Err(Diagnostic::file(
+            path.display().to_string(),
+            format!("the {which} ids exceed 4 GiB"),
+        ));
+    }
+    Ok(())
 }
 
 /// Compares a train id list with a test id list.
@@ -166,6 +197,63 @@ fn overlap_sorted(
 #[allow(clippy::unwrap_used)]
 mod tests {
     use super::*;
+
+    /// An id list of about 3 MB, so lines are cut off at the ends of the reader's 1 MiB
+    /// buffer: ids of 1 to 22 bytes, CRLF and LF line breaks, blank lines, spaces around ids and
+    /// no line break after the last. Read against the obvious: the text split at line breaks,
+    /// each line trimmed, blank ones dropped.
+    fn long_list() -> String {
+        let mut text = String::new();
+        let mut state = 0x2545_f491_4f6c_dd1du64;
+        for i in 0..200_000u64 {
+            state ^= state << 13;
+            state ^= state >> 7;
+            state ^= state << 17;
+            let id: String = format!("{i:x}-{state:x}")
+                .chars()
+                .take(1 + (state % 40) as usize)
+                .collect();
+            match state % 7 {
+                0 => text.push_str(&format!(" {id}\r\n")),
+                1 => text.push_str(&format!("{id}\n\n")),
+                _ => text.push_str(&format!("{id}\n")),
+            }
+        }
+        text.push_str("last-without-a-line-break");
+        text
+    }
+
+    #[test]
+    fn lines_cut_off_at_the_buffer_end_are_read_whole() {
+        let text = long_list();
+        assert!(text.len() > 2 << 20);
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("ids.txt");
+        std::fs::write(&path, &text).unwrap();
+        let ids = read_all(&path, "the test", "test").unwrap();
+        let expected: Vec<&str> = text
+            .split('\n')
+            .map(str::trim)
+            .filter(|l| !l.is_empty())
+            .collect();
+        assert_eq!(ids.len(), expected.len());
+        for (i, id) in expected.iter().enumerate() {
+            assert_eq!(ids.get(i), id.as_bytes(), "id {i}");
+        }
+
+        // A tab inside an id past the first buffer: its line and column (within the trimmed id,
+        // 1-based) are counted from the text.
+        let at = text.len() / 2 + 5;
+        let start = text[..at].rfind('\n').map_or(0, |p| p + 1);
+        let line = text[..at].matches('\n').count() as u64 + 1;
+        let mut bad = text.clone().into_bytes();
+        bad[at] = b'\t';
+        std::fs::write(&path, &bad).unwrap();
+        let lead = text[start..].len() - text[start..].trim_start().len();
+        let diagnostic = read_all(&path, "the test", "test").unwrap_err();
+        assert_eq!(diagnostic.line, Some(line));
+        assert_eq!(diagnostic.column, Some((at - start - lead) as u64 + 1));
+    }
 
     proptest::proptest! {
         /// The merge of the two sorted lists against the obvious: a `HashSet` of the test ids,

@@ -106,28 +106,58 @@ impl Problems {
 pub(super) struct Classes {
     pub(super) names: Vec<String>,
     index: HashMap<Vec<u8>, u32>,
+    /// Each name as a [`Word`], in the order of `names`.
+    words: Vec<Word>,
     fixed: bool,
+}
+
+/// A name of at most 8 bytes as one number (its bytes and its length), so a few short classes
+/// are told apart by comparing numbers rather than calling `memcmp` on every cell; a longer
+/// name has none.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+struct Word(Option<(u64, usize)>);
+
+impl Word {
+    fn of(name: &[u8]) -> Word {
+        Word((name.len() <= 8).then(|| {
+            let bytes = name.iter().fold(0u64, |word, &b| word << 8 | u64::from(b));
+            (bytes, name.len())
+        }))
+    }
 }
 
 impl Classes {
     pub(super) fn new(given: Option<&[String]>) -> Classes {
-        let names: Vec<String> = given.map(<[String]>::to_vec).unwrap_or_default();
-        let index = names
-            .iter()
-            .enumerate()
-            .map(|(i, n)| (n.as_bytes().to_vec(), i as u32))
-            .collect();
-        Classes {
-            names,
-            index,
+        let mut classes = Classes {
+            names: Vec::new(),
+            index: HashMap::new(),
+            words: Vec::new(),
             fixed: given.is_some(),
+        };
+        for name in given.unwrap_or_default() {
+            classes.add(name.as_bytes(), name.clone());
         }
+        classes
+    }
+
+    fn add(&mut self, bytes: &[u8], name: String) -> u32 {
+        let i = self.names.len() as u32;
+        self.names.push(name);
+        self.words.push(Word::of(bytes));
+        self.index.entry(bytes.to_vec()).or_insert(i);
+        i
     }
 
     pub(super) fn get(&mut self, label: &[u8]) -> Option<u32> {
         // A few classes are found faster by scanning than by hashing every cell.
         if self.names.len() <= 16 {
-            if let Some(i) = self.names.iter().position(|n| n.as_bytes() == label) {
+            let word = Word::of(label);
+            let found = if word.0.is_some() {
+                self.words.iter().position(|&w| w == word)
+            } else {
+                self.names.iter().position(|n| n.as_bytes() == label)
+            };
+            if let Some(i) = found {
                 return Some(i as u32);
             }
         } else if let Some(&i) = self.index.get(label) {
@@ -136,10 +166,7 @@ impl Classes {
         if self.fixed {
             return None;
         }
-        let i = self.names.len() as u32;
-        self.names.push(String::from_utf8_lossy(label).into_owned());
-        self.index.insert(label.to_vec(), i);
-        Some(i)
+        Some(self.add(label, String::from_utf8_lossy(label).into_owned()))
     }
 }
 
@@ -747,6 +774,33 @@ mod tests {
                 fingerprint: false,
             },
         )
+    }
+
+    proptest::proptest! {
+        /// Class lookup against a list searched in order: labels of up to 8 bytes are told
+        /// apart as numbers with their length ("a" and "a\0", "ab" and "ba" differ), longer
+        /// ones by bytes, past 16 classes by hashing; a new label is appended unless the classes
+        /// are fixed.
+        #[test]
+        fn class_lookup_agrees_with_a_list(
+            given in proptest::option::of(proptest::collection::vec("[ab\0]{0,3}|[ab]{8,10}", 0..20)),
+            labels in proptest::collection::vec("[ab\0]{0,3}|[ab]{7,10}", 0..200),
+        ) {
+            let mut classes = Classes::new(given.as_deref());
+            let mut list: Vec<String> = given.clone().unwrap_or_default();
+            for label in &labels {
+                let expected = match list.iter().position(|n| n == label) {
+                    Some(i) => Some(i as u32),
+                    None if given.is_some() => None,
+                    None => {
+                        list.push(label.clone());
+                        Some(list.len() as u32 - 1)
+                    }
+                };
+                proptest::prop_assert_eq!(classes.get(label.as_bytes()), expected, "{:?}", label);
+            }
+            proptest::prop_assert_eq!(&classes.names, &list);
+        }
     }
 
     /// A file of `classes` distinct labels, each row predicting its own label.
