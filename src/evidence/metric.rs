@@ -436,26 +436,28 @@ pub fn compare(
                 .iter()
                 .map(|name| ca.iter().position(|c| c == name).map(|i| i as Class))
                 .collect();
-            let [mismatches] = tally(&pairs, |i, j| {
-                [u64::from(to_model[ab[j] as usize] != Some(aa[i]))]
-            });
+            let mismatch = |i: usize, j: usize| u64::from(to_model[ab[j] as usize] != Some(aa[i]));
+            // For accuracy, McNemar's counts are tallied in the same pass (a pass reads the
+            // columns out of file order): b, rows only the model gets right; c, rows only the
+            // baseline does.
+            let [mismatches, b, c] = match (metric, pa, pb) {
+                (Metric::Accuracy, Some(pa), Some(pb)) => tally(&pairs, |i, j| {
+                    let (right_a, right_b) = (pa[i] == aa[i], pb[j] == ab[j]);
+                    [
+                        mismatch(i, j),
+                        u64::from(right_a && !right_b),
+                        u64::from(right_b && !right_a),
+                    ]
+                }),
+                _ => tally(&pairs, |i, j| [mismatch(i, j), 0, 0]),
+            };
             comparison.label_mismatches = mismatches;
             match metric {
                 Metric::Accuracy => {
-                    let (pa, pb) = (
-                        pa.as_ref()
-                            .ok_or("McNemar's test needs the model's `prediction` column")?,
-                        pb.as_ref()
-                            .ok_or("McNemar's test needs the baseline's `prediction` column")?,
-                    );
-                    // b: rows only the model gets right; c: rows only the baseline does.
-                    let [b, c] = tally(&pairs, |i, j| {
-                        let (right_a, right_b) = (pa[i] == aa[i], pb[j] == ab[j]);
-                        [
-                            u64::from(right_a && !right_b),
-                            u64::from(right_b && !right_a),
-                        ]
-                    });
+                    pa.as_ref()
+                        .ok_or("McNemar's test needs the model's `prediction` column")?;
+                    pb.as_ref()
+                        .ok_or("McNemar's test needs the baseline's `prediction` column")?;
                     let test =
                         stats::mcnemar_auto(b, c, stats::MCNEMAR_EXACT_BELOW).map_err(err)?;
                     comparison.improvement = (b as f64 - c as f64) / pairs.len() as f64;

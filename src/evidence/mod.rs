@@ -358,8 +358,64 @@ pub enum Step {
 pub fn walk(
     (a, a_order): (&IdArena, &IdOrder),
     (b, b_order): (&IdArena, &IdOrder),
-    mut each: impl FnMut(Step),
+    each: impl FnMut(Step),
 ) {
+    let (a, b) = sides((a, a_order), (b, b_order));
+    walk_sides(a, b, each);
+}
+
+/// One list as [`walk`] reads it: its ids and its entries in id order (all, or a part split off
+/// at a key), with keys taken past the `shared` bytes both lists share.
+#[derive(Clone, Copy)]
+struct Side<'a> {
+    ids: &'a IdArena,
+    entries: &'a [Entry],
+    /// Whether the entries' keys were taken past more bytes than `shared`, so they are rebuilt.
+    rebuild: bool,
+    shared: usize,
+}
+
+impl Side<'_> {
+    fn key(&self, k: usize) -> u64 {
+        let entry = self.entries[k];
+        if self.rebuild {
+            key(&self.ids.get(entry.row as usize)[self.shared..])
+        } else {
+            entry.key()
+        }
+    }
+
+    /// The part before the first entry whose key is `pivot` or more, and the rest. Keys past a
+    /// prefix of ids in byte order never decrease, so equal ids fall in the same part.
+    fn split(self, pivot: u64) -> (Self, Self) {
+        let (mut at, mut end) = (0, self.entries.len());
+        while at < end {
+            let mid = at + (end - at) / 2;
+            if self.key(mid) < pivot {
+                at = mid + 1;
+            } else {
+                end = mid;
+            }
+        }
+        let (first, rest) = self.entries.split_at(at);
+        (
+            Side {
+                entries: first,
+                ..self
+            },
+            Side {
+                entries: rest,
+                ..self
+            },
+        )
+    }
+}
+
+/// The two lists of a [`walk`], with the prefix their ids share.
+fn sides<'a>(
+    (a, a_order): (&'a IdArena, &'a IdOrder),
+    (b, b_order): (&'a IdArena, &'a IdOrder),
+) -> (Side<'a>, Side<'a>) {
     let shared = match (a_order.entries.first(), b_order.entries.first()) {
         (Some(x), Some(y)) => {
             let (x, y) = (
@@ -370,20 +426,25 @@ pub fn walk(
         }
         _ => 0,
     };
-    let key_at = |ids: &IdArena, order: &IdOrder, k: usize| {
-        let entry = order.entries[k];
-        if order.prefix == shared {
-            entry.key()
-        } else {
-            key(&ids.get(entry.row as usize)[shared..])
-        }
+    let side = |ids, order: &'a IdOrder| Side {
+        ids,
+        entries: &order.entries,
+        rebuild: order.prefix != shared,
+        shared,
     };
+    (side(a, a_order), side(b, b_order))
+}
+
+/// [`walk`] on two sides.
+fn walk_sides(a: Side<'_>, b: Side<'_>, mut each: impl FnMut(Step)) {
     let (mut i, mut j, mut b_paired) = (0, 0, false);
-    let (an, bn) = (a_order.entries.len(), b_order.entries.len());
+    let (an, bn) = (a.entries.len(), b.entries.len());
     while i < an && j < bn {
-        let (ra, rb) = (a_order.entries[i].row, b_order.entries[j].row);
-        let (ka, kb) = (key_at(a, a_order, i), key_at(b, b_order, j));
-        let ordering = ka.cmp(&kb).then_with(|| a.tie(b, ka, (ra, rb), shared));
+        let (ra, rb) = (a.entries[i].row, b.entries[j].row);
+        let (ka, kb) = (a.key(i), b.key(j));
+        let ordering = ka
+            .cmp(&kb)
+            .then_with(|| a.ids.tie(b.ids, ka, (ra, rb), a.shared));
         match ordering {
             Ordering::Equal => {
                 each(Step::Both(ra, rb));
@@ -403,11 +464,11 @@ pub fn walk(
             }
         }
     }
-    for e in &a_order.entries[i..] {
+    for e in &a.entries[i..] {
         each(Step::OnlyFirst(e.row));
     }
     let rest = if b_paired { j + 1 } else { j };
-    for e in b_order.entries.get(rest..).unwrap_or_default() {
+    for e in b.entries.get(rest..).unwrap_or_default() {
         each(Step::OnlySecond(e.row));
     }
 }
@@ -460,10 +521,63 @@ impl PredictionSet {
 
 /// Pairs the rows of two prediction sets by id: `(row in a, row in b)` for every id in both,
 /// and the count of ids found in only one of them.
+///
+/// Past [`PAIR_ON_TWO_THREADS`] rows the lists are split at the key of the model's middle id and
+/// the two parts walked on two threads; every id falls in the same part of both lists, so the
+/// pairs, in id order, are the same as one walk's.
 pub fn pair_by_id(a: &PredictionSet, b: &PredictionSet) -> (Vec<(u32, u32)>, usize) {
-    let mut pairs = Vec::with_capacity(a.rows().min(b.rows()));
+    let (a, b) = sides((&a.ids, &a.order), (&b.ids, &b.order));
+    pair(a, b, a.entries.len() >= PAIR_ON_TWO_THREADS)
+}
+
+/// [`pair_by_id`] on two sides, on one thread or on two.
+fn pair(a: Side<'_>, b: Side<'_>, two_threads: bool) -> (Vec<(u32, u32)>, usize) {
+    if !two_threads || a.entries.is_empty() {
+        return pair_sides(a, b);
+    }
+    let pivot = a.key(a.entries.len() / 2);
+    let ((a_first, a_rest), (b_first, b_rest)) = (a.split(pivot), b.split(pivot));
+    // Each part fills its own stretch of one list (a model's id pairs once at most), and the
+    // second part's pairs are then moved down to follow the first's: no second list.
+    let mut pairs = vec![(0, 0); a.entries.len()];
+    let (first, rest) = pairs.split_at_mut(a_first.entries.len());
+    let ((first_pairs, first_unmatched), (rest_pairs, rest_unmatched)) =
+        std::thread::scope(|scope| {
+            let rest = scope.spawn(|| fill_pairs(a_rest, b_rest, rest));
+            let first = fill_pairs(a_first, b_first, first);
+            (
+                first,
+                rest.join().unwrap_or_else(|e| std::panic::resume_unwind(e)),
+            )
+        });
+    let rest_start = a_first.entries.len();
+    pairs.copy_within(rest_start..rest_start + rest_pairs, first_pairs);
+    pairs.truncate(first_pairs + rest_pairs);
+    (pairs, first_unmatched + rest_unmatched)
+}
+
+/// [`pair_sides`] into `out`, which has room for a pair per id of `a`: the count of pairs
+/// written and of ids in only one side.
+fn fill_pairs(a: Side<'_>, b: Side<'_>, out: &mut [(u32, u32)]) -> (usize, usize) {
+    let (mut written, mut unmatched) = (0, 0);
+    walk_sides(a, b, |step| match step {
+        Step::Both(ra, rb) => {
+            out[written] = (ra, rb);
+            written += 1;
+        }
+        Step::OnlyFirst(_) | Step::OnlySecond(_) => unmatched += 1,
+    });
+    (written, unmatched)
+}
+
+/// Rows past which [`pair_by_id`] walks on two threads.
+const PAIR_ON_TWO_THREADS: usize = 1 << 20;
+
+/// The pairs of two sides and the count of ids in only one of them ([`pair_by_id`]).
+fn pair_sides(a: Side<'_>, b: Side<'_>) -> (Vec<(u32, u32)>, usize) {
+    let mut pairs = Vec::with_capacity(a.entries.len().min(b.entries.len()));
     let mut unmatched = 0;
-    walk((&a.ids, &a.order), (&b.ids, &b.order), |step| match step {
+    walk_sides(a, b, |step| match step {
         Step::Both(ra, rb) => pairs.push((ra, rb)),
         Step::OnlyFirst(_) | Step::OnlySecond(_) => unmatched += 1,
     });
@@ -693,6 +807,11 @@ mod tests {
                     want.insert(Step::OnlySecond(j as u32));
                 }
             }
+            // Pairing split in two at the first list's middle key (on two threads, as past a
+            // million rows) gives what one walk gives.
+            let (sa, sb) = sides((&a, &a_order), (&b, &b_order));
+            proptest::prop_assert_eq!(pair(sa, sb, true), pair(sa, sb, false));
+
             let mut steps = Vec::new();
             walk((&a, &a_order), (&b, &b_order), |step| steps.push(step));
             proptest::prop_assert_eq!(steps.len(), want.len());
