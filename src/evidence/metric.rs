@@ -359,6 +359,15 @@ fn tally<const N: usize>(
     pairs: &[(u32, u32)],
     count: impl Fn(usize, usize) -> [u64; N] + Sync,
 ) -> [u64; N] {
+    tally_on(pairs, count, pairs.len() >= TALLY_ON_TWO_THREADS)
+}
+
+/// [`tally`] on one thread or on two.
+fn tally_on<const N: usize>(
+    pairs: &[(u32, u32)],
+    count: impl Fn(usize, usize) -> [u64; N] + Sync,
+    two_threads: bool,
+) -> [u64; N] {
     let sum = |part: &[(u32, u32)]| {
         part.iter().fold([0u64; N], |mut sums, &(i, j)| {
             for (s, c) in sums.iter_mut().zip(count(i as usize, j as usize)) {
@@ -367,7 +376,7 @@ fn tally<const N: usize>(
             sums
         })
     };
-    if pairs.len() < TALLY_ON_TWO_THREADS {
+    if !two_threads {
         return sum(pairs);
     }
     let (first, second) = pairs.split_at(pairs.len() / 2);
@@ -721,6 +730,36 @@ impl Comparison {
 #[cfg(test)]
 #[allow(clippy::unwrap_used)]
 mod tests {
+    /// Counts over pairs split between two threads against the counts taken by filtering the
+    /// pairs directly (odd pairs of ragged length, so the halves differ in size).
+    #[test]
+    fn a_tally_on_two_threads_counts_what_filtering_counts() {
+        let mut state = 0x853c_49e6_748f_ea9bu64;
+        let pairs: Vec<(u32, u32)> = (0..10_001)
+            .map(|_| {
+                state ^= state << 13;
+                state ^= state >> 7;
+                state ^= state << 17;
+                ((state % 1000) as u32, (state >> 32) as u32 % 777)
+            })
+            .collect();
+        let count = |i: usize, j: usize| {
+            [
+                u64::from(i.is_multiple_of(3)),
+                u64::from(j.is_multiple_of(5)),
+                1,
+            ]
+        };
+        let direct = [
+            pairs.iter().filter(|&&(i, _)| i.is_multiple_of(3)).count() as u64,
+            pairs.iter().filter(|&&(_, j)| j.is_multiple_of(5)).count() as u64,
+            pairs.len() as u64,
+        ];
+        assert_eq!(tally_on(&pairs, count, true), direct);
+        assert_eq!(tally_on(&pairs, count, false), direct);
+        assert_eq!(tally_on(&[], count, true), [0, 0, 0]);
+    }
+
     use proptest::prelude::*;
 
     use super::*;
