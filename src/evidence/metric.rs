@@ -345,9 +345,6 @@ pub struct Comparison {
     pub discordant: Option<(u64, u64)>,
 }
 
-/// Compares the model with its baseline on their shared rows. `model_pieces` are the model's
-/// DeLong pieces on all its rows ([`Recomputed::auc_pieces`]), used for ROC AUC when every model
-/// row is paired (a component depends on every other row, so a subset is computed afresh).
 /// Pairs past which [`tally`] counts on two threads.
 const TALLY_ON_TWO_THREADS: usize = 1 << 20;
 
@@ -393,6 +390,9 @@ fn tally_on<const N: usize>(
     std::array::from_fn(|k| a[k] + b[k])
 }
 
+/// Compares the model with its baseline on their shared rows. `model_pieces` are the model's
+/// DeLong pieces on all its rows ([`Recomputed::auc_pieces`]), used for ROC AUC when every model
+/// row is paired (a component depends on every other row, so a subset is computed afresh).
 pub fn compare(
     model: &PredictionSet,
     baseline: &PredictionSet,
@@ -446,11 +446,20 @@ pub fn compare(
                 .map(|name| ca.iter().position(|c| c == name).map(|i| i as Class))
                 .collect();
             let mismatch = |i: usize, j: usize| u64::from(to_model[ab[j] as usize] != Some(aa[i]));
+            let mcnemar_columns = match metric {
+                Metric::Accuracy => Some((
+                    pa.as_ref()
+                        .ok_or("McNemar's test needs the model's `prediction` column")?,
+                    pb.as_ref()
+                        .ok_or("McNemar's test needs the baseline's `prediction` column")?,
+                )),
+                _ => None,
+            };
             // For accuracy, McNemar's counts are tallied in the same pass (a pass reads the
             // columns out of file order): b, rows only the model gets right; c, rows only the
             // baseline does.
-            let [mismatches, b, c] = match (metric, pa, pb) {
-                (Metric::Accuracy, Some(pa), Some(pb)) => tally(&pairs, |i, j| {
+            let [mismatches, b, c] = match mcnemar_columns {
+                Some((pa, pb)) => tally(&pairs, |i, j| {
                     let (right_a, right_b) = (pa[i] == aa[i], pb[j] == ab[j]);
                     [
                         mismatch(i, j),
@@ -458,15 +467,11 @@ pub fn compare(
                         u64::from(right_b && !right_a),
                     ]
                 }),
-                _ => tally(&pairs, |i, j| [mismatch(i, j), 0, 0]),
+                None => tally(&pairs, |i, j| [mismatch(i, j), 0, 0]),
             };
             comparison.label_mismatches = mismatches;
             match metric {
                 Metric::Accuracy => {
-                    pa.as_ref()
-                        .ok_or("McNemar's test needs the model's `prediction` column")?;
-                    pb.as_ref()
-                        .ok_or("McNemar's test needs the baseline's `prediction` column")?;
                     let test =
                         stats::mcnemar_auto(b, c, stats::MCNEMAR_EXACT_BELOW).map_err(err)?;
                     comparison.improvement = (b as f64 - c as f64) / pairs.len() as f64;
@@ -730,8 +735,12 @@ impl Comparison {
 #[cfg(test)]
 #[allow(clippy::unwrap_used)]
 mod tests {
+    use proptest::prelude::*;
+
+    use super::*;
+
     /// Counts over pairs split between two threads against the counts taken by filtering the
-    /// pairs directly (odd pairs of ragged length, so the halves differ in size).
+    /// pairs directly (an odd number of pairs, so the halves differ in size).
     #[test]
     fn a_tally_on_two_threads_counts_what_filtering_counts() {
         let mut state = 0x853c_49e6_748f_ea9bu64;
@@ -759,10 +768,6 @@ mod tests {
         assert_eq!(tally_on(&pairs, count, false), direct);
         assert_eq!(tally_on(&[], count, true), [0, 0, 0]);
     }
-
-    use proptest::prelude::*;
-
-    use super::*;
     use crate::evidence::IdArena;
 
     /// A binary predictions set with scores; rows named `r<index of rows[k]>` in `rows` order.

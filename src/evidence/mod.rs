@@ -411,8 +411,8 @@ struct Side<'a> {
 }
 
 impl Side<'_> {
-    fn key(&self, k: usize) -> u64 {
-        let entry = self.entries[k];
+    /// `entry`'s key past the `shared` bytes.
+    fn key(&self, entry: Entry) -> u64 {
         if self.rebuild {
             key(&self.ids.get(entry.row as usize)[self.shared..])
         } else {
@@ -423,15 +423,7 @@ impl Side<'_> {
     /// The part before the first entry whose key is `pivot` or more, and the rest. Keys past a
     /// prefix of ids in byte order never decrease, so equal ids fall in the same part.
     fn split(self, pivot: u64) -> (Self, Self) {
-        let (mut at, mut end) = (0, self.entries.len());
-        while at < end {
-            let mid = at + (end - at) / 2;
-            if self.key(mid) < pivot {
-                at = mid + 1;
-            } else {
-                end = mid;
-            }
-        }
+        let at = self.entries.partition_point(|&e| self.key(e) < pivot);
         let (first, rest) = self.entries.split_at(at);
         (
             Side {
@@ -476,7 +468,7 @@ fn walk_sides(a: Side<'_>, b: Side<'_>, mut each: impl FnMut(Step)) {
     let (an, bn) = (a.entries.len(), b.entries.len());
     while i < an && j < bn {
         let (ra, rb) = (a.entries[i].row, b.entries[j].row);
-        let (ka, kb) = (a.key(i), b.key(j));
+        let (ka, kb) = (a.key(a.entries[i]), b.key(b.entries[j]));
         let ordering = ka
             .cmp(&kb)
             .then_with(|| a.ids.tie(b.ids, ka, (ra, rb), a.shared));
@@ -565,16 +557,20 @@ pub fn pair_by_id(a: &PredictionSet, b: &PredictionSet) -> (Vec<(u32, u32)>, usi
     pair(a, b, a.entries.len() >= PAIR_ON_TWO_THREADS)
 }
 
-/// [`pair_by_id`] on two sides, on one thread or on two.
+/// [`pair_by_id`] on two sides, on one thread or on two. Each part fills its own stretch of
+/// one list, which has room for a pair per id of `a` (an id of the first list pairs once at
+/// most; the list is zeroed memory, so room never paired for stays untouched); the second
+/// part's pairs are then moved down to follow the first's.
 fn pair(a: Side<'_>, b: Side<'_>, two_threads: bool) -> (Vec<(u32, u32)>, usize) {
-    if !two_threads || a.entries.is_empty() {
-        return pair_sides(a, b);
-    }
-    let pivot = a.key(a.entries.len() / 2);
-    let ((a_first, a_rest), (b_first, b_rest)) = (a.split(pivot), b.split(pivot));
-    // Each part fills its own stretch of one list (a model's id pairs once at most), and the
-    // second part's pairs are then moved down to follow the first's: no second list.
     let mut pairs = vec![(0, 0); a.entries.len()];
+    let middle = a.entries.get(a.entries.len() / 2).filter(|_| two_threads);
+    let Some(&middle) = middle else {
+        let (written, unmatched) = fill_pairs(a, b, &mut pairs);
+        pairs.truncate(written);
+        return (pairs, unmatched);
+    };
+    let pivot = a.key(middle);
+    let ((a_first, a_rest), (b_first, b_rest)) = (a.split(pivot), b.split(pivot));
     let (first, rest) = pairs.split_at_mut(a_first.entries.len());
     let ((first_pairs, first_unmatched), (rest_pairs, rest_unmatched)) =
         std::thread::scope(|scope| {
@@ -591,8 +587,8 @@ fn pair(a: Side<'_>, b: Side<'_>, two_threads: bool) -> (Vec<(u32, u32)>, usize)
     (pairs, first_unmatched + rest_unmatched)
 }
 
-/// [`pair_sides`] into `out`, which has room for a pair per id of `a`: the count of pairs
-/// written and of ids in only one side.
+/// The pairs of two sides written into `out`, which has room for a pair per id of `a`: the
+/// count of pairs written and of ids in only one side.
 fn fill_pairs(a: Side<'_>, b: Side<'_>, out: &mut [(u32, u32)]) -> (usize, usize) {
     let (mut written, mut unmatched) = (0, 0);
     walk_sides(a, b, |step| match step {
@@ -607,17 +603,6 @@ fn fill_pairs(a: Side<'_>, b: Side<'_>, out: &mut [(u32, u32)]) -> (usize, usize
 
 /// Rows past which [`pair_by_id`] walks on two threads.
 const PAIR_ON_TWO_THREADS: usize = 1 << 20;
-
-/// The pairs of two sides and the count of ids in only one of them ([`pair_by_id`]).
-fn pair_sides(a: Side<'_>, b: Side<'_>) -> (Vec<(u32, u32)>, usize) {
-    let mut pairs = Vec::with_capacity(a.entries.len().min(b.entries.len()));
-    let mut unmatched = 0;
-    walk_sides(a, b, |step| match step {
-        Step::Both(ra, rb) => pairs.push((ra, rb)),
-        Step::OnlyFirst(_) | Step::OnlySecond(_) => unmatched += 1,
-    });
-    (pairs, unmatched)
-}
 
 #[cfg(test)]
 mod tests {
