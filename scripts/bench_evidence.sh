@@ -9,6 +9,10 @@
 # its default snappy compression; needs pyarrow): vetscore, the Python script (`read_parquet`)
 # and the floor all read the Parquet files, and the input size counts them instead of the CSVs.
 #
+# vetscore and the floor run RUNS times each (default 3), in turn, and the run of median wall time
+# is reported for each, so one run slowed by a busy machine does not set the figure; the Python
+# script, at about 30x the time, runs once.
+#
 # WORK keeps the generated files for the next run (generation is skipped when WORK already holds
 # them); with WORK set, REUSE_PYTHON=1 reuses the Python script's output and time from an earlier
 # run there, and VETSCORE names the vetscore binary to time (default target/release/vetscore), so
@@ -20,6 +24,7 @@ cd "$(dirname "$0")/.."
 PYTHON=${PYTHON:-python3}
 ROWS=${ROWS:-10000000}
 FORMAT=${FORMAT:-csv}
+RUNS=${RUNS:-3}
 case "$FORMAT" in csv | parquet) ;; *) echo "FORMAT must be csv or parquet, not $FORMAT" >&2; exit 2 ;; esac
 work=${WORK:-$(mktemp -d)}
 trap '[ -z "${WORK:-}" ] && rm -rf "$work"' EXIT
@@ -95,25 +100,38 @@ fi
 predictions=$work/predictions.$FORMAT
 baseline=$work/baseline.$FORMAT
 
+# One run of a command: prints "wall-seconds peak-KiB user-seconds system-seconds"; its standard
+# output is left in $work/out.
 measure() {
     /usr/bin/time -f "%e %M %U %S" "$@" 2> "$work/time" > "$work/out" || true
-    tail -n 1 "$work/time" | cut -d' ' -f3,4 > "$work/cpu"
-    tail -n 1 "$work/time" | cut -d' ' -f1,2
+    tail -n 1 "$work/time"
 }
-read -r rs_s rs_kb < <(measure "$VETSCORE" check --today 2026-12-01 --root "$work" --json - "$manifest")
-cp "$work/out" "$work/vetscore.json"
-read -r rs_user rs_sys < <(tail -n 1 "$work/cpu")
+# The line of median wall time among the lines on standard input (RUNS of them).
+median() {
+    sort -n -k1,1 | sed -n "$(((RUNS + 1) / 2))p"
+}
+: > "$work/vetscore.runs"
+: > "$work/floor.runs"
+: > "$work/floor.parse"
+for _ in $(seq "$RUNS"); do
+    measure "$VETSCORE" check --today 2026-12-01 --root "$work" --json - "$manifest" >> "$work/vetscore.runs"
+    cp "$work/out" "$work/vetscore.json"
+    measure "$floor" "$predictions" "$baseline" -- "$work/test_ids.txt" "$work/train_ids.txt" >> "$work/floor.runs"
+    "$PYTHON" -c 'import json, sys; print(json.load(open(sys.argv[1]))["seconds"])' "$work/out" >> "$work/floor.parse"
+done
+read -r rs_s rs_kb rs_user rs_sys < <(median < "$work/vetscore.runs")
+read -r fl_s fl_kb _ < <(median < "$work/floor.runs")
+# The floor's own clock around its parsing, median of the runs.
+fl_parse=$(median < "$work/floor.parse")
 # The Python result and time of each format are kept apart, so REUSE_PYTHON never mixes them.
 python_json=$work/python.$FORMAT.json python_time=$work/python.$FORMAT.time
 if [ -n "${REUSE_PYTHON:-}" ] && [ -f "$python_time" ] && [ -f "$python_json" ]; then
     read -r py_s py_kb < "$python_time"
 else
-    read -r py_s py_kb < <(measure "$PYTHON" benches/evidence_python.py "$work" "$FORMAT")
+    read -r py_s py_kb _ < <(measure "$PYTHON" benches/evidence_python.py "$work" "$FORMAT")
     cp "$work/out" "$python_json"
     echo "$py_s $py_kb" > "$python_time"
 fi
-read -r fl_s fl_kb < <(measure "$floor" "$predictions" "$baseline" -- "$work/test_ids.txt" "$work/train_ids.txt")
-fl_parse=$("$PYTHON" -c 'import json, sys; print(json.load(open(sys.argv[1]))["seconds"])' "$work/out")
 
 "$PYTHON" - "$work" "$python_json" <<'PY'
 import json, sys
@@ -138,6 +156,7 @@ print("same numbers: " + ", ".join(f"{k} {v[1]}" for k, v in checks.items() if k
 PY
 size=$(du -cb "$predictions" "$baseline" "$work"/train_ids.txt "$work"/test_ids.txt | tail -n 1 | cut -f1)
 echo "input: $ROWS predictions per side ($FORMAT) and $ROWS ids per list, $((size / 1048576)) MiB"
+echo "median of $RUNS runs of vetscore and of the floor; Python once"
 echo "vetscore: ${rs_s} s wall, ${rs_user} s user + ${rs_sys} s system CPU, peak $((rs_kb / 1024)) MiB"
 echo "python:   ${py_s} s, peak $((py_kb / 1024)) MiB"
 echo "floor:    ${fl_parse} s parsing (${fl_s} s with start and exit), peak $((fl_kb / 1024)) MiB"

@@ -14,7 +14,7 @@
 
 use serde::Serialize;
 
-use super::{Class, Columns, PredictionSet, pair_by_id};
+use super::{Class, Columns, PredictionSet, count_by_id, pair_by_id};
 use crate::manifest::Metric;
 use crate::manifest::raw::F1Mode;
 use crate::stats::{
@@ -390,6 +390,58 @@ fn tally_on<const N: usize>(
     std::array::from_fn(|k| a[k] + b[k])
 }
 
+/// The baseline's class indices translated to the model's, by name.
+fn to_model(model_classes: &[String], baseline_classes: &[String]) -> Vec<Option<Class>> {
+    baseline_classes
+        .iter()
+        .map(|name| {
+            model_classes
+                .iter()
+                .position(|c| c == name)
+                .map(|i| i as Class)
+        })
+        .collect()
+}
+
+/// [`compare`] for accuracy, from McNemar's counts alone, tallied as the ids are walked
+/// ([`count_by_id`]; a pass reads the columns out of file order): b, rows only the model gets
+/// right; c, rows only the baseline does; and the rows whose labels differ. `to_model` maps the
+/// baseline's classes to the model's ([`to_model`]).
+fn compare_accuracy(
+    model: &PredictionSet,
+    baseline: &PredictionSet,
+    (actual_a, predicted_a): (&[Class], &[Class]),
+    (actual_b, predicted_b): (&[Class], &[Class]),
+    to_model: &[Option<Class>],
+    confidence: f64,
+) -> Result<Comparison, String> {
+    let err = |e: stats::StatsError| e.to_string();
+    let counted = count_by_id(model, baseline, |i, j| {
+        let (right_a, right_b) = (predicted_a[i] == actual_a[i], predicted_b[j] == actual_b[j]);
+        [
+            u64::from(to_model[actual_b[j] as usize] != Some(actual_a[i])),
+            u64::from(right_a && !right_b),
+            u64::from(right_b && !right_a),
+        ]
+    });
+    let mut comparison = Comparison::new(counted.pairs, counted.unpaired)?;
+    let [mismatches, b, c] = counted.sums;
+    comparison.label_mismatches = mismatches;
+    let test = stats::mcnemar_auto(b, c, stats::MCNEMAR_EXACT_BELOW).map_err(err)?;
+    comparison.improvement = (b as f64 - c as f64) / counted.pairs as f64;
+    comparison.interval =
+        stats::paired_accuracy_difference(b, c, counted.pairs, confidence).map_err(err)?;
+    comparison.set_p(test.p_value, None, b + c)?;
+    comparison.test = if test.exact {
+        "McNemar, exact binomial"
+    } else {
+        "McNemar, chi-square with continuity correction"
+    }
+    .into();
+    comparison.discordant = Some((b, c));
+    Ok(comparison)
+}
+
 /// Compares the model with its baseline on their shared rows. `model_pieces` are the model's
 /// DeLong pieces on all its rows ([`Recomputed::auc_pieces`]), used for ROC AUC when every model
 /// row is paired (a component depends on every other row, so a subset is computed afresh).
@@ -403,26 +455,33 @@ pub fn compare(
 ) -> Result<Comparison, String> {
     let confidence = settings.confidence;
     let err = |e: stats::StatsError| e.to_string();
-    let (pairs, unpaired) = pair_by_id(model, baseline);
-    let mut comparison = Comparison {
-        paired_rows: pairs.len() as u64,
-        unpaired: unpaired as u64,
-        label_mismatches: 0,
-        improvement: 0.0,
-        interval: Interval {
-            lower: 0.0,
-            upper: 0.0,
-        },
-        p_value: 1.0,
-        test_p_value: 1.0,
-        p_floor: 1.0,
-        test: String::new(),
-        no_spread: false,
-        discordant: None,
-    };
-    if pairs.is_empty() {
-        return Err("the model and the baseline share no row ids".into());
+    if metric == Metric::Accuracy
+        && let (
+            Columns::Classification {
+                classes: ca,
+                actual: aa,
+                predicted: Some(pa),
+                ..
+            },
+            Columns::Classification {
+                classes: cb,
+                actual: ab,
+                predicted: Some(pb),
+                ..
+            },
+        ) = (&model.columns, &baseline.columns)
+    {
+        return compare_accuracy(
+            model,
+            baseline,
+            (aa, pa),
+            (ab, pb),
+            &to_model(ca, cb),
+            confidence,
+        );
     }
+    let (pairs, unpaired) = pair_by_id(model, baseline);
+    let mut comparison = Comparison::new(pairs.len() as u64, unpaired)?;
     match (&model.columns, &baseline.columns) {
         (
             Columns::Classification {
@@ -440,52 +499,20 @@ pub fn compare(
                 ..
             },
         ) => {
-            // The baseline's class indices, translated to the model's by name once.
-            let to_model: Vec<Option<Class>> = cb
-                .iter()
-                .map(|name| ca.iter().position(|c| c == name).map(|i| i as Class))
-                .collect();
-            let mismatch = |i: usize, j: usize| u64::from(to_model[ab[j] as usize] != Some(aa[i]));
-            let mcnemar_columns = match metric {
-                Metric::Accuracy => Some((
-                    pa.as_ref()
-                        .ok_or("McNemar's test needs the model's `prediction` column")?,
-                    pb.as_ref()
-                        .ok_or("McNemar's test needs the baseline's `prediction` column")?,
-                )),
-                _ => None,
-            };
-            // For accuracy, McNemar's counts are tallied in the same pass (a pass reads the
-            // columns out of file order): b, rows only the model gets right; c, rows only the
-            // baseline does.
-            let [mismatches, b, c] = match mcnemar_columns {
-                Some((pa, pb)) => tally(&pairs, |i, j| {
-                    let (right_a, right_b) = (pa[i] == aa[i], pb[j] == ab[j]);
-                    [
-                        mismatch(i, j),
-                        u64::from(right_a && !right_b),
-                        u64::from(right_b && !right_a),
-                    ]
-                }),
-                None => tally(&pairs, |i, j| [mismatch(i, j), 0, 0]),
-            };
+            let to_model = to_model(ca, cb);
+            let [mismatches] = tally(&pairs, |i, j| {
+                [u64::from(to_model[ab[j] as usize] != Some(aa[i]))]
+            });
             comparison.label_mismatches = mismatches;
             match metric {
+                // With both prediction columns, accuracy is compared by `compare_accuracy`.
                 Metric::Accuracy => {
-                    let test =
-                        stats::mcnemar_auto(b, c, stats::MCNEMAR_EXACT_BELOW).map_err(err)?;
-                    comparison.improvement = (b as f64 - c as f64) / pairs.len() as f64;
-                    comparison.interval =
-                        stats::paired_accuracy_difference(b, c, pairs.len() as u64, confidence)
-                            .map_err(err)?;
-                    comparison.set_p(test.p_value, None, b + c)?;
-                    comparison.test = if test.exact {
-                        "McNemar, exact binomial"
+                    return Err(if pa.is_none() {
+                        "McNemar's test needs the model's `prediction` column"
                     } else {
-                        "McNemar, chi-square with continuity correction"
+                        "McNemar's test needs the baseline's `prediction` column"
                     }
-                    .into();
-                    comparison.discordant = Some((b, c));
+                    .into());
                 }
                 Metric::RocAuc => {
                     let (sa, sb) = (
@@ -705,6 +732,30 @@ fn paired_losses(
 }
 
 impl Comparison {
+    /// A comparison of `paired_rows` shared rows, `unpaired` ids in only one file, before its
+    /// test; an error when no row is shared.
+    fn new(paired_rows: u64, unpaired: usize) -> Result<Comparison, String> {
+        if paired_rows == 0 {
+            return Err("the model and the baseline share no row ids".into());
+        }
+        Ok(Comparison {
+            paired_rows,
+            unpaired: unpaired as u64,
+            label_mismatches: 0,
+            improvement: 0.0,
+            interval: Interval {
+                lower: 0.0,
+                upper: 0.0,
+            },
+            p_value: 1.0,
+            test_p_value: 1.0,
+            p_floor: 1.0,
+            test: String::new(),
+            no_spread: false,
+            discordant: None,
+        })
+    }
+
     /// Records the named test's p-value and reports the larger of it and the sign-flip bound.
     fn set_p(
         &mut self,
@@ -770,8 +821,8 @@ mod tests {
     }
     use crate::evidence::IdArena;
 
-    /// A binary predictions set with scores; rows named `r<index of rows[k]>` in `rows` order.
-    fn binary_set(rows: &[usize], positive: &[bool], score: &[f64]) -> PredictionSet {
+    /// A predictions set of `columns`, its rows named `r<row>` in `rows` order.
+    fn set_of(rows: &[usize], columns: Columns) -> PredictionSet {
         let mut ids = IdArena::default();
         for &r in rows {
             ids.push(format!("r{r:04}").as_bytes()).unwrap();
@@ -780,17 +831,99 @@ mod tests {
         PredictionSet {
             file: "p.csv".into(),
             ids,
-            columns: Columns::Classification {
+            columns,
+            positive: Some(1),
+            fingerprint: String::new(),
+            order,
+        }
+    }
+
+    /// A binary predictions set with scores; rows named `r<index of rows[k]>` in `rows` order.
+    fn binary_set(rows: &[usize], positive: &[bool], score: &[f64]) -> PredictionSet {
+        set_of(
+            rows,
+            Columns::Classification {
                 classes: vec!["no".into(), "yes".into()],
                 actual: rows.iter().map(|&r| Class::from(positive[r])).collect(),
                 predicted: None,
                 score: Some(rows.iter().map(|&r| score[r]).collect()),
                 prob_true: None,
             },
-            positive: Some(1),
-            fingerprint: String::new(),
-            order,
-        }
+        )
+    }
+
+    /// An accuracy predictions set: ids `r<row>` in `rows` order, with the labels and
+    /// predictions (classes "no" and "yes" as 0 and 1) of each line of the file in turn.
+    fn accuracy_set(
+        rows: &[usize],
+        actual: &[Class],
+        predicted: Option<&[Class]>,
+    ) -> PredictionSet {
+        set_of(
+            rows,
+            Columns::Classification {
+                classes: vec!["no".into(), "yes".into()],
+                actual: actual.to_vec(),
+                predicted: predicted.map(<[Class]>::to_vec),
+                score: None,
+                prob_true: None,
+            },
+        )
+    }
+
+    /// McNemar's counts tallied as the ids are walked, counted by hand: rows r0-r4 shared (the
+    /// baseline lists them in another order), r5 the model's only, r6 the baseline's only.
+    #[test]
+    fn accuracy_counts_discordant_rows_by_id() {
+        let settings = Settings {
+            confidence: 0.95,
+            method: ProportionMethod::Wilson,
+            resamples: 100,
+            seed: 1,
+        };
+        // Model right on r0, r1, r2, r5; baseline right on r0, r3 and wrong on r1, r2, r4;
+        // labels differ on r4.
+        let model = accuracy_set(
+            &[0, 1, 2, 3, 4, 5],
+            &[1, 0, 1, 0, 1, 1],
+            Some(&[1, 0, 1, 1, 0, 1]),
+        );
+        let baseline = accuracy_set(
+            &[4, 3, 2, 1, 0, 6],
+            &[0, 0, 1, 0, 1, 0],
+            Some(&[1, 0, 0, 1, 1, 0]),
+        );
+        let c = compare(
+            &model,
+            &baseline,
+            Metric::Accuracy,
+            F1Mode::Binary,
+            settings,
+            None,
+        )
+        .unwrap();
+        assert_eq!((c.paired_rows, c.unpaired, c.label_mismatches), (5, 2, 1));
+        // b: only the model right (r1, r2); c: only the baseline (r3).
+        assert_eq!(c.discordant, Some((2, 1)));
+        assert_eq!(c.improvement, (2.0 - 1.0) / 5.0);
+
+        let without = accuracy_set(&[0, 1], &[1, 0], None);
+        let err = |a: &PredictionSet, b: &PredictionSet| {
+            compare(a, b, Metric::Accuracy, F1Mode::Binary, settings, None).unwrap_err()
+        };
+        assert_eq!(
+            err(&without, &baseline),
+            "McNemar's test needs the model's `prediction` column"
+        );
+        assert_eq!(
+            err(&model, &without),
+            "McNemar's test needs the baseline's `prediction` column"
+        );
+        let elsewhere = accuracy_set(&[7, 8], &[1, 0], Some(&[1, 0]));
+        assert_eq!(
+            err(&model, &elsewhere),
+            "the model and the baseline share no row ids"
+        );
     }
 
     proptest! {

@@ -557,34 +557,133 @@ pub fn pair_by_id(a: &PredictionSet, b: &PredictionSet) -> (Vec<(u32, u32)>, usi
     pair(a, b, a.entries.len() >= PAIR_ON_TWO_THREADS)
 }
 
-/// [`pair_by_id`] on two sides, on one thread or on two. Each part fills its own stretch of
-/// one list, which has room for a pair per id of `a` (an id of the first list pairs once at
-/// most; the list is zeroed memory, so room never paired for stays untouched); the second
-/// part's pairs are then moved down to follow the first's.
+/// `a` and `b` each split in two at the key of `a`'s middle entry, when `two_threads` and `a`
+/// has entries: every id falls in the same part of both lists, so walking the first parts and
+/// then the second ones is walking the whole lists.
+fn halves<'a>(a: Side<'a>, b: Side<'a>, two_threads: bool) -> Option<[(Side<'a>, Side<'a>); 2]> {
+    let &middle = a.entries.get(a.entries.len() / 2).filter(|_| two_threads)?;
+    let pivot = a.key(middle);
+    let ((a_first, a_rest), (b_first, b_rest)) = (a.split(pivot), b.split(pivot));
+    Some([(a_first, b_first), (a_rest, b_rest)])
+}
+
+/// Runs `first` on a second thread and `second` on this one, and gives both results (a panic
+/// in either is raised here).
+fn both<A: Send, B>(first: impl FnOnce() -> A + Send, second: impl FnOnce() -> B) -> (A, B) {
+    std::thread::scope(|scope| {
+        let first = scope.spawn(first);
+        let second = second();
+        (
+            first
+                .join()
+                .unwrap_or_else(|e| std::panic::resume_unwind(e)),
+            second,
+        )
+    })
+}
+
+/// [`pair_by_id`] on two sides, on one thread or on two ([`halves`]). Each part fills its own
+/// stretch of one list, which has room for a pair per id of `a` (an id of the first list pairs
+/// once at most; the list is zeroed memory, so room never paired for stays untouched); the
+/// second part's pairs are then moved down to follow the first's.
 fn pair(a: Side<'_>, b: Side<'_>, two_threads: bool) -> (Vec<(u32, u32)>, usize) {
     let mut pairs = vec![(0, 0); a.entries.len()];
-    let middle = a.entries.get(a.entries.len() / 2).filter(|_| two_threads);
-    let Some(&middle) = middle else {
+    let Some([(a_first, b_first), (a_rest, b_rest)]) = halves(a, b, two_threads) else {
         let (written, unmatched) = fill_pairs(a, b, &mut pairs);
         pairs.truncate(written);
         return (pairs, unmatched);
     };
-    let pivot = a.key(middle);
-    let ((a_first, a_rest), (b_first, b_rest)) = (a.split(pivot), b.split(pivot));
     let (first, rest) = pairs.split_at_mut(a_first.entries.len());
-    let ((first_pairs, first_unmatched), (rest_pairs, rest_unmatched)) =
-        std::thread::scope(|scope| {
-            let rest = scope.spawn(|| fill_pairs(a_rest, b_rest, rest));
-            let first = fill_pairs(a_first, b_first, first);
-            (
-                first,
-                rest.join().unwrap_or_else(|e| std::panic::resume_unwind(e)),
-            )
-        });
+    let ((first_pairs, first_unmatched), (rest_pairs, rest_unmatched)) = both(
+        || fill_pairs(a_first, b_first, first),
+        || fill_pairs(a_rest, b_rest, rest),
+    );
     let rest_start = a_first.entries.len();
     pairs.copy_within(rest_start..rest_start + rest_pairs, first_pairs);
     pairs.truncate(first_pairs + rest_pairs);
     (pairs, first_unmatched + rest_unmatched)
+}
+
+/// Counts over the rows two prediction sets share, summed as their ids are walked
+/// ([`count_by_id`]).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Counted<const N: usize> {
+    /// Ids in both sets.
+    pub pairs: u64,
+    /// Ids in only one of them.
+    pub unpaired: usize,
+    /// The sums of `count` over the shared rows.
+    pub sums: [u64; N],
+}
+
+impl<const N: usize> Counted<N> {
+    fn add(self, other: Counted<N>) -> Counted<N> {
+        Counted {
+            pairs: self.pairs + other.pairs,
+            unpaired: self.unpaired + other.unpaired,
+            sums: std::array::from_fn(|k| self.sums[k] + other.sums[k]),
+        }
+    }
+}
+
+/// Sums `count(row in a, row in b)` over every id in both sets as the ids are walked, for a test
+/// that needs only counts (McNemar's): no list of pairs is written and read again. Split and
+/// walked on two threads past [`PAIR_ON_TWO_THREADS`] rows, as [`pair_by_id`] is; the sums are
+/// whole numbers, so they are the same on any number of threads.
+pub fn count_by_id<const N: usize>(
+    a: &PredictionSet,
+    b: &PredictionSet,
+    count: impl Fn(usize, usize) -> [u64; N] + Sync,
+) -> Counted<N> {
+    let (a, b) = sides((&a.ids, &a.order), (&b.ids, &b.order));
+    count_sides(a, b, &count, a.entries.len() >= PAIR_ON_TWO_THREADS)
+}
+
+/// [`count_by_id`] on two sides, on one thread or on two ([`halves`]).
+fn count_sides<const N: usize>(
+    a: Side<'_>,
+    b: Side<'_>,
+    count: &(impl Fn(usize, usize) -> [u64; N] + Sync),
+    two_threads: bool,
+) -> Counted<N> {
+    let walk_part = |a, b| {
+        let mut counted = Counted {
+            pairs: 0,
+            unpaired: 0,
+            sums: [0; N],
+        };
+        // The pairs a stretch of the walk finds are counted together: a loop of loads without
+        // branches keeps many reads out of file order in flight, where counting each pair
+        // inside the walk waits on the walk's comparisons.
+        let mut chunk: Vec<(u32, u32)> = Vec::with_capacity(COUNT_CHUNK);
+        let flush = |chunk: &mut Vec<(u32, u32)>, counted: &mut Counted<N>| {
+            for &(i, j) in chunk.iter() {
+                for (sum, c) in counted.sums.iter_mut().zip(count(i as usize, j as usize)) {
+                    *sum += c;
+                }
+            }
+            counted.pairs += chunk.len() as u64;
+            chunk.clear();
+        };
+        walk_sides(a, b, |step| match step {
+            Step::Both(ra, rb) => {
+                chunk.push((ra, rb));
+                if chunk.len() == COUNT_CHUNK {
+                    flush(&mut chunk, &mut counted);
+                }
+            }
+            Step::OnlyFirst(_) | Step::OnlySecond(_) => counted.unpaired += 1,
+        });
+        flush(&mut chunk, &mut counted);
+        counted
+    };
+    match halves(a, b, two_threads) {
+        Some([(a_first, b_first), (a_rest, b_rest)]) => {
+            let (first, rest) = both(|| walk_part(a_first, b_first), || walk_part(a_rest, b_rest));
+            first.add(rest)
+        }
+        None => walk_part(a, b),
+    }
 }
 
 /// The pairs of two sides written into `out`, which has room for a pair per id of `a`: the
@@ -600,6 +699,9 @@ fn fill_pairs(a: Side<'_>, b: Side<'_>, out: &mut [(u32, u32)]) -> (usize, usize
     });
     (written, unmatched)
 }
+
+/// Pairs [`count_by_id`] collects before counting them.
+const COUNT_CHUNK: usize = 1 << 12;
 
 /// Rows past which [`pair_by_id`] walks on two threads.
 const PAIR_ON_TWO_THREADS: usize = 1 << 20;
@@ -712,6 +814,52 @@ mod tests {
     /// Ids as hostile inputs give them: long shared prefixes on two dates (so most keys past the
     /// shared prefix are equal), one list's prefix a prefix of another's, suffixes of unequal
     /// length with bytes equal to the key's zero padding.
+    /// Counting as the ids are walked over more shared rows than one chunk holds, on one thread
+    /// and split in two: the counts the list of pairs gives (the pairs, the ids in one list
+    /// only, and a sum over the pairs).
+    #[test]
+    fn counts_over_many_chunks_are_the_counts_of_the_pairs() {
+        // Every third id of the first list and every fifth of the second are their own: 8 in 15
+        // are shared, over 3 chunks' worth.
+        let n = 6 * COUNT_CHUNK + 100;
+        let first: Vec<String> = (0..n)
+            .map(|i| {
+                if i % 3 == 0 {
+                    format!("a{i}")
+                } else {
+                    format!("s{i}")
+                }
+            })
+            .collect();
+        let second: Vec<String> = (0..n)
+            .rev()
+            .map(|i| {
+                if i % 5 == 0 {
+                    format!("b{i}")
+                } else {
+                    format!("s{i}")
+                }
+            })
+            .collect();
+        let (a, b) = (arena(&first), arena(&second));
+        let (a_order, b_order) = (a.sorted(), b.sorted());
+        let (sa, sb) = sides((&a, &a_order), (&b, &b_order));
+        let (pairs, unpaired) = pair(sa, sb, false);
+        // Shared: i neither a multiple of 3 nor of 5; pairs of the second list's rows reversed.
+        let shared = (0..n).filter(|i| i % 3 != 0 && i % 5 != 0).count();
+        assert_eq!(pairs.len(), shared);
+        assert!(shared > 3 * COUNT_CHUNK);
+        let count = |i: usize, j: usize| [(i + j) as u64];
+        let want = Counted {
+            pairs: shared as u64,
+            unpaired,
+            sums: [pairs.iter().map(|&(i, j)| u64::from(i + j)).sum()],
+        };
+        for two_threads in [false, true] {
+            assert_eq!(count_sides(sa, sb, &count, two_threads), want);
+        }
+    }
+
     pub(crate) fn hostile_id() -> impl proptest::strategy::Strategy<Value = String> {
         use proptest::strategy::Strategy;
         let prefixes = [
@@ -840,6 +988,21 @@ mod tests {
             // million rows) gives what one walk gives.
             let (sa, sb) = sides((&a, &a_order), (&b, &b_order));
             proptest::prop_assert_eq!(pair(sa, sb, true), pair(sa, sb, false));
+            // Counting as the ids are walked, split or not, counts what the list of pairs holds:
+            // the pairs, the ids in one list only and a sum over the pairs.
+            let (pairs, unpaired) = pair(sa, sb, false);
+            let count = |i: usize, j: usize| [u64::from(i < j), (i * 7 + j) as u64];
+            let from_pairs = Counted {
+                pairs: pairs.len() as u64,
+                unpaired,
+                sums: [
+                    pairs.iter().filter(|&&(i, j)| i < j).count() as u64,
+                    pairs.iter().map(|&(i, j)| u64::from(i) * 7 + u64::from(j)).sum(),
+                ],
+            };
+            for two_threads in [false, true] {
+                proptest::prop_assert_eq!(count_sides(sa, sb, &count, two_threads), from_pairs);
+            }
 
             let mut steps = Vec::new();
             walk((&a, &a_order), (&b, &b_order), |step| steps.push(step));
