@@ -174,18 +174,30 @@ fn overlap_sorted(
         shared: 0,
         examples: Vec::new(),
     };
-    // The first few shared train rows in file order: the merge meets them in id order.
-    let mut first_rows: Vec<u32> = Vec::with_capacity(SHOWN + 1);
-    super::walk((train, train_order), (test, test_order), |step| {
-        if let Step::Both(row, _) = step {
-            result.shared += 1;
-            if first_rows.len() < SHOWN || first_rows.last().is_some_and(|&last| row < last) {
-                let at = first_rows.partition_point(|&r| r < row);
-                first_rows.insert(at, row);
-                first_rows.truncate(SHOWN);
+    // Each part of the walk counts its shared ids and keeps its first few shared train rows in
+    // file order (the merge meets them in id order); the first few of all are among those.
+    let parts = super::walk_parts(
+        (train, train_order),
+        (test, test_order),
+        || (0u64, Vec::with_capacity(SHOWN + 1)),
+        |(shared, first_rows): &mut (u64, Vec<u32>), step| {
+            if let Step::Both(row, _) = step {
+                *shared += 1;
+                if first_rows.len() < SHOWN || first_rows.last().is_some_and(|&last| row < last) {
+                    let at = first_rows.partition_point(|&r| r < row);
+                    first_rows.insert(at, row);
+                    first_rows.truncate(SHOWN);
+                }
             }
-        }
-    });
+        },
+    );
+    let mut first_rows = Vec::new();
+    for (shared, rows) in parts {
+        result.shared += shared;
+        first_rows.extend(rows);
+    }
+    first_rows.sort_unstable();
+    first_rows.truncate(SHOWN);
     result.examples = first_rows
         .iter()
         .map(|&row| String::from_utf8_lossy(train.get(row as usize)).into_owned())
@@ -255,6 +267,41 @@ mod tests {
         assert_eq!(diagnostic.column, Some((at - start - lead) as u64 + 1));
     }
 
+    fn arena(ids: &[String]) -> IdArena {
+        let mut arena = IdArena::default();
+        for id in ids {
+            arena.push(id.as_bytes()).unwrap();
+        }
+        arena
+    }
+
+    /// Past 2^20 train ids the merge is split at the train list's middle id and walked on two
+    /// threads: the count and the first shared train ids in file order against a `HashSet` of
+    /// the test ids. The train list takes ids from both ends of id order in turn, so its first
+    /// shared ids fall in both parts.
+    #[test]
+    fn a_split_overlap_agrees_with_a_set() {
+        let n = (1 << 20) + 1000;
+        let train: Vec<String> = (0..n)
+            .map(|k| if k % 2 == 0 { k / 2 } else { n - 1 - k / 2 })
+            .map(|i| format!("id{i:07}"))
+            .collect();
+        let test: Vec<String> = (0..n)
+            .step_by(97)
+            .map(|i| format!("id{i:07}"))
+            .chain((0..5000).map(|j| format!("x{j}")))
+            .collect();
+        let test_set: std::collections::HashSet<&String> = test.iter().collect();
+        let shared: Vec<&String> = train.iter().filter(|id| test_set.contains(id)).collect();
+        let got = overlap_of(&arena(&train), &arena(&test));
+        assert_eq!(got.shared, shared.len() as u64);
+        let firsts: Vec<&String> = got.examples.iter().collect();
+        assert_eq!(firsts, shared[..SHOWN]);
+        // From both halves of id order: the list's first shared ids are its smallest and largest.
+        assert!(firsts.iter().any(|id| id.as_str() < "id0524288"));
+        assert!(firsts.iter().any(|id| id.as_str() > "id0524288"));
+    }
+
     proptest::proptest! {
         /// The merge of the two sorted lists against the obvious: a `HashSet` of the test ids,
         /// the train ids looked up in file order. Both lists may repeat ids.
@@ -269,13 +316,6 @@ mod tests {
                 if with_nul { ids } else { ids.into_iter().map(|id| id.replace('\0', "z")).collect() }
             };
             let (train, test) = (strip(train), strip(test));
-            let arena = |ids: &[String]| {
-                let mut arena = IdArena::default();
-                for id in ids {
-                    arena.push(id.as_bytes()).unwrap();
-                }
-                arena
-            };
             let test_set: std::collections::HashSet<&String> = test.iter().collect();
             let shared: Vec<String> = train.iter().filter(|id| test_set.contains(id)).cloned().collect();
             let got = overlap_of(&arena(&train), &arena(&test));

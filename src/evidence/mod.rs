@@ -646,43 +646,86 @@ fn count_sides<const N: usize>(
     count: &(impl Fn(usize, usize) -> [u64; N] + Sync),
     two_threads: bool,
 ) -> Counted<N> {
-    let walk_part = |a, b| {
-        let mut counted = Counted {
-            pairs: 0,
-            unpaired: 0,
-            sums: [0; N],
-        };
-        // The pairs a stretch of the walk finds are counted together: a loop of loads without
-        // branches keeps many reads out of file order in flight, where counting each pair
-        // inside the walk waits on the walk's comparisons.
-        let mut chunk: Vec<(u32, u32)> = Vec::with_capacity(COUNT_CHUNK);
-        let flush = |chunk: &mut Vec<(u32, u32)>, counted: &mut Counted<N>| {
-            for &(i, j) in chunk.iter() {
-                for (sum, c) in counted.sums.iter_mut().zip(count(i as usize, j as usize)) {
-                    *sum += c;
-                }
+    // The pairs a stretch of the walk finds are counted together: a loop of loads without
+    // branches keeps many reads out of file order in flight, where counting each pair inside
+    // the walk waits on the walk's comparisons.
+    let flush = |(counted, chunk): &mut (Counted<N>, Vec<(u32, u32)>)| {
+        for &(i, j) in chunk.iter() {
+            for (sum, c) in counted.sums.iter_mut().zip(count(i as usize, j as usize)) {
+                *sum += c;
             }
-            counted.pairs += chunk.len() as u64;
-            chunk.clear();
-        };
-        walk_sides(a, b, |step| match step {
+        }
+        counted.pairs += chunk.len() as u64;
+        chunk.clear();
+    };
+    let parts = walk_sides_in_parts(
+        a,
+        b,
+        two_threads,
+        || {
+            let counted = Counted {
+                pairs: 0,
+                unpaired: 0,
+                sums: [0; N],
+            };
+            (counted, Vec::with_capacity(COUNT_CHUNK))
+        },
+        |state, step| match step {
             Step::Both(ra, rb) => {
-                chunk.push((ra, rb));
-                if chunk.len() == COUNT_CHUNK {
-                    flush(&mut chunk, &mut counted);
+                state.1.push((ra, rb));
+                if state.1.len() == COUNT_CHUNK {
+                    flush(state);
                 }
             }
-            Step::OnlyFirst(_) | Step::OnlySecond(_) => counted.unpaired += 1,
-        });
-        flush(&mut chunk, &mut counted);
-        counted
+            Step::OnlyFirst(_) | Step::OnlySecond(_) => state.0.unpaired += 1,
+        },
+    );
+    let mut all = Counted {
+        pairs: 0,
+        unpaired: 0,
+        sums: [0; N],
+    };
+    for mut part in parts {
+        flush(&mut part);
+        all = all.add(part.0);
+    }
+    all
+}
+
+/// [`walk`] in parts: split in two at the first list's middle key past [`PAIR_ON_TWO_THREADS`]
+/// ids of it ([`halves`]) and the parts walked on two threads, else whole. Each part starts
+/// from `start()` and passes each of its steps, in id order, to `each`; the parts' states are
+/// returned in id order. Every id falls in the same part of both lists, so each id's steps are
+/// those one walk gives.
+pub fn walk_parts<S: Send>(
+    a: (&IdArena, &IdOrder),
+    b: (&IdArena, &IdOrder),
+    start: impl Fn() -> S + Sync,
+    each: impl Fn(&mut S, Step) + Sync,
+) -> Vec<S> {
+    let (a, b) = sides(a, b);
+    walk_sides_in_parts(a, b, a.entries.len() >= PAIR_ON_TWO_THREADS, start, each)
+}
+
+/// [`walk_parts`] on two sides, on one thread or on two.
+fn walk_sides_in_parts<S: Send>(
+    a: Side<'_>,
+    b: Side<'_>,
+    two_threads: bool,
+    start: impl Fn() -> S + Sync,
+    each: impl Fn(&mut S, Step) + Sync,
+) -> Vec<S> {
+    let walk_part = |a, b| {
+        let mut state = start();
+        walk_sides(a, b, |step| each(&mut state, step));
+        state
     };
     match halves(a, b, two_threads) {
         Some([(a_first, b_first), (a_rest, b_rest)]) => {
             let (first, rest) = both(|| walk_part(a_first, b_first), || walk_part(a_rest, b_rest));
-            first.add(rest)
+            vec![first, rest]
         }
-        None => walk_part(a, b),
+        None => vec![walk_part(a, b)],
     }
 }
 
@@ -1003,6 +1046,11 @@ mod tests {
             for two_threads in [false, true] {
                 proptest::prop_assert_eq!(count_sides(sa, sb, &count, two_threads), from_pairs);
             }
+            // Walked in parts, the parts' steps one after the other are one walk's steps.
+            let mut one_walk = Vec::new();
+            walk_sides(sa, sb, |step| one_walk.push(step));
+            let parts = walk_sides_in_parts(sa, sb, true, Vec::new, |steps, step| steps.push(step));
+            proptest::prop_assert_eq!(parts.concat(), one_walk);
 
             let mut steps = Vec::new();
             walk((&a, &a_order), (&b, &b_order), |step| steps.push(step));
