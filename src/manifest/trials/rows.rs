@@ -16,7 +16,7 @@
 use std::io::Read;
 
 use super::TrialReader;
-use super::number::parse_score;
+use super::number::{delimiter_in, parse_score, short_decimal};
 use crate::diag::Place;
 
 /// Bytes read for the main thread's block before it is cut after its last line break (the second
@@ -40,6 +40,36 @@ struct Columns {
     folds: Vec<usize>,
     /// Fields of the header, which every record must have.
     width: usize,
+    /// What each of the `width` columns holds, for [`Parsed::whole_line`].
+    roles: Vec<Role>,
+}
+
+/// What a column of vetscore's layout holds.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Role {
+    Id,
+    /// The score of fold `k + 1`.
+    Fold(usize),
+    /// A column the reader does not use (a hyperparameter).
+    Other,
+}
+
+impl Columns {
+    fn new(id: usize, folds: Vec<usize>, width: usize) -> Columns {
+        let mut roles = vec![Role::Other; width];
+        // A fold column named twice is read from its first place, as `folds` says; the id
+        // column is never a fold's (their names differ).
+        for (k, &c) in folds.iter().enumerate().rev() {
+            roles[c] = Role::Fold(k);
+        }
+        roles[id] = Role::Id;
+        Columns {
+            id,
+            folds,
+            width,
+            roles,
+        }
+    }
 }
 
 /// The trials and problems of a run of records, in file order: trial `i` has the id
@@ -113,30 +143,111 @@ impl Parsed {
     }
 
     /// Parses a plain block (see [`plain`]) whose first line is line 0.
+    ///
+    /// Each line is first read in one pass that splits its fields and parses its scores as it
+    /// goes ([`Parsed::whole_line`]), which holds for a well-formed trial. Any other line (empty,
+    /// ragged, an id that is not UTF-8, a cell that is not a number) is read again by the
+    /// general path ([`Parsed::line`]), so its problem is the one the csv crate's path reports.
     fn plain(block: &[u8], columns: &Columns) -> Parsed {
         let mut parsed = Parsed::default();
-        // Where each field of the current line starts.
+        // Where each field of a line starts, for the general path.
         let mut starts: Vec<usize> = Vec::with_capacity(columns.width + 1);
         let mut line = 0;
-        starts.push(0);
-        // Byte by byte: a comma every few bytes is too close for a vector search to gain.
-        for (at, &b) in block.iter().enumerate() {
-            if b == b',' {
-                starts.push(at + 1);
-            } else if b == b'\n' {
-                parsed.line(block, columns, &mut starts, line, at);
+        let mut at = 0;
+        while at < block.len() {
+            let end = match parsed.whole_line(block, at, columns, line) {
+                Some(end) => end,
+                None => {
+                    let end = memchr::memchr(b'\n', &block[at..]).map_or(block.len(), |e| at + e);
+                    starts.clear();
+                    starts.push(at);
+                    starts.extend(memchr::memchr_iter(b',', &block[at..end]).map(|c| at + c + 1));
+                    parsed.line(block, columns, &mut starts, line, end);
+                    end
+                }
+            };
+            // `end` is the line's line break, or the end of the block (the file's last line).
+            if end < block.len() {
                 line += 1;
-                starts.clear();
-                starts.push(at + 1);
             }
-        }
-        // The last line of the file may have no line break.
-        if starts[0] < block.len() {
-            parsed.line(block, columns, &mut starts, line, block.len());
+            at = end + 1;
         }
         parsed.newlines = line;
         parsed.bytes = block.len();
         parsed
+    }
+
+    /// Reads the line of `block` that starts at `at` as a well-formed trial: `columns.width`
+    /// fields split at commas, the last ending at a line feed (a carriage return before it
+    /// dropped) or at the end of the block, a UTF-8 id and a number in every fold cell. Keeps
+    /// the trial and returns where the line ends (its line feed, or the block's length); `None`,
+    /// with nothing kept, for any other line. What it keeps is what [`Parsed::line`] keeps for
+    /// the same line: the same fields, the same cells through [`parse_score`].
+    fn whole_line(
+        &mut self,
+        block: &[u8],
+        at: usize,
+        columns: &Columns,
+        line: u64,
+    ) -> Option<usize> {
+        // An empty line (or one the general path must look at for its carriage return).
+        if matches!(block[at], b'\n' | b'\r') {
+            return None;
+        }
+        let start = self.scores.len();
+        self.scores.resize(start + columns.folds.len(), 0.0);
+        let mut id: &str = "";
+        let mut p = at;
+        let last = columns.roles.len() - 1;
+        for (col, &role) in columns.roles.iter().enumerate() {
+            let from = p;
+            // A short score is read with its length a word at a time; any other cell is
+            // scanned to its end (a word at a time while 8 bytes remain).
+            let word = |p: usize| {
+                block
+                    .get(p..p + 8)
+                    .map(|w| u64::from_le_bytes(w.try_into().unwrap_or_default()))
+            };
+            let short = match role {
+                Role::Fold(_) => word(p).and_then(short_decimal),
+                Role::Id | Role::Other => None,
+            };
+            match short {
+                Some((_, len)) => p += len,
+                None => p = cell_end(block, p),
+            }
+            let ends_line = block.get(p) != Some(&b',');
+            let mut field = &block[from..p];
+            if col == last {
+                if !ends_line {
+                    break;
+                }
+                field = field.strip_suffix(b"\r").unwrap_or(field);
+            } else if ends_line {
+                break;
+            }
+            let good = match role {
+                Role::Id => std::str::from_utf8(field).map(|text| id = text).is_ok(),
+                Role::Fold(k) => short
+                    .map(|(score, _)| score)
+                    .or_else(|| parse_score(field))
+                    .map(|score| self.scores[start + k] = score)
+                    .is_some(),
+                Role::Other => true,
+            };
+            if !good {
+                break;
+            }
+            if col == last {
+                self.ids.push_str(id);
+                self.id_ends.push(self.ids.len());
+                self.lines.push(line);
+                return Some(p);
+            }
+            p += 1;
+        }
+        self.scores.truncate(start);
+        None
     }
 
     /// The line of a plain block that ends at `end` (its line break, or the end of the block),
@@ -165,6 +276,23 @@ impl Parsed {
             &block[starts[k]..starts[k + 1] - 1]
         });
     }
+}
+
+/// Where the cell of `block` that starts at `from` ends: its comma or line feed, or the end of
+/// the block. A word at a time while 8 bytes remain, then byte by byte.
+fn cell_end(block: &[u8], from: usize) -> usize {
+    let mut p = from;
+    while let Some(word) = block.get(p..p + 8) {
+        let word = u64::from_le_bytes(word.try_into().unwrap_or_default());
+        match delimiter_in(word) {
+            Some(at) => return p + at,
+            None => p += 8,
+        }
+    }
+    p + block[p..]
+        .iter()
+        .position(|&b| b == b',' || b == b'\n')
+        .unwrap_or(block.len() - p)
 }
 
 /// Whether a block is plain: no quote, so every line break ends a record.
@@ -495,11 +623,11 @@ impl TrialReader<'_> {
             .map(|(name, _)| name)
             .collect();
         if let (Some(id), true) = (id, missing.is_empty()) {
-            return Some(Layout::Trials(Columns {
+            return Some(Layout::Trials(Columns::new(
                 id,
-                folds: folds.into_iter().flatten().collect(),
-                width: header.len(),
-            }));
+                folds.into_iter().flatten().collect(),
+                header.len(),
+            )));
         }
         if !self.full() {
             self.note(
