@@ -203,13 +203,8 @@ impl Parsed {
             let from = p;
             // A short score is read with its length a word at a time; any other cell is
             // scanned to its end (a word at a time while 8 bytes remain).
-            let word = |p: usize| {
-                block
-                    .get(p..p + 8)
-                    .map(|w| u64::from_le_bytes(w.try_into().unwrap_or_default()))
-            };
             let short = match role {
-                Role::Fold(_) => word(p).and_then(short_decimal),
+                Role::Fold(_) => word_at(block, p).and_then(short_decimal),
                 Role::Id | Role::Other => None,
             };
             match short {
@@ -278,12 +273,18 @@ impl Parsed {
     }
 }
 
+/// The 8 bytes of `block` from `at` as one word, the first byte lowest; `None` within 8 bytes
+/// of the end.
+fn word_at(block: &[u8], at: usize) -> Option<u64> {
+    let bytes = block.get(at..)?.first_chunk::<8>()?;
+    Some(u64::from_le_bytes(*bytes))
+}
+
 /// Where the cell of `block` that starts at `from` ends: its comma or line feed, or the end of
 /// the block. A word at a time while 8 bytes remain, then byte by byte.
 fn cell_end(block: &[u8], from: usize) -> usize {
     let mut p = from;
-    while let Some(word) = block.get(p..p + 8) {
-        let word = u64::from_le_bytes(word.try_into().unwrap_or_default());
+    while let Some(word) = word_at(block, p) {
         match delimiter_in(word) {
             Some(at) => return p + at,
             None => p += 8,
