@@ -142,14 +142,28 @@ impl Parsed {
         self.lines.push(line);
     }
 
+    /// Empties the run, keeping the room its lists have.
+    fn clear(&mut self) {
+        self.ids.clear();
+        self.id_ends.clear();
+        self.scores.clear();
+        self.lines.clear();
+        self.problems.clear();
+        self.newlines = 0;
+        self.bytes = 0;
+    }
+
     /// Parses a plain block (see [`plain`]) whose first line is line 0.
     ///
     /// Each line is first read in one pass that splits its fields and parses its scores as it
     /// goes ([`Parsed::whole_line`]), which holds for a well-formed trial. Any other line (empty,
     /// ragged, an id that is not UTF-8, a cell that is not a number) is read again by the
     /// general path ([`Parsed::line`]), so its problem is the one the csv crate's path reports.
-    fn plain(block: &[u8], columns: &Columns) -> Parsed {
-        let mut parsed = Parsed::default();
+    ///
+    /// `parsed` is an earlier run's, emptied here: its lists keep their room, so a block's
+    /// trials need no fresh memory.
+    fn plain(block: &[u8], columns: &Columns, mut parsed: Parsed) -> Parsed {
+        parsed.clear();
         // Where each field of a line starts, for the general path.
         let mut starts: Vec<usize> = Vec::with_capacity(columns.width + 1);
         let mut line = 0;
@@ -671,12 +685,16 @@ impl TrialReader<'_> {
         // The next round's blocks, read during this one.
         let (mut next_mine, mut next_theirs) = (Vec::new(), Vec::new());
         let mut before: Vec<Parsed> = Vec::new();
+        // Runs taken in an earlier round, whose room the next blocks reuse.
+        let mut spare: Vec<Parsed> = Vec::new();
         loop {
+            let (for_theirs, for_mine) = (spare.pop(), spare.pop());
             let (going, parsed, next) = std::thread::scope(|scope| {
-                let other =
-                    (fill == Fill::Plain).then(|| scope.spawn(|| Parsed::plain(&theirs, columns)));
+                let other = (fill == Fill::Plain).then(|| {
+                    scope.spawn(|| Parsed::plain(&theirs, columns, for_theirs.unwrap_or_default()))
+                });
                 let going = self.take_all(&before, columns, &mut line);
-                let mut parsed = vec![Parsed::plain(&mine, columns)];
+                let mut parsed = vec![Parsed::plain(&mine, columns, for_mine.unwrap_or_default())];
                 let next = (going && fill == Fill::Plain).then(|| {
                     let next = blocks.fill(&mut next_mine, size);
                     let after = match next {
@@ -696,7 +714,7 @@ impl TrialReader<'_> {
             if !going {
                 return;
             }
-            before = parsed;
+            spare.extend(std::mem::replace(&mut before, parsed));
             let other = match (fill, next) {
                 (Fill::Plain, Some((Fill::Plain, after))) => {
                     std::mem::swap(&mut mine, &mut next_mine);
