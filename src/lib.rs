@@ -14,6 +14,7 @@ pub mod input;
 pub mod ledger;
 pub mod manifest;
 pub mod opener;
+pub mod parallel;
 pub mod plan;
 pub mod policy;
 pub mod report;

@@ -135,14 +135,11 @@ pub fn overlap(
 ) -> Result<Overlap, Diagnostic> {
     // The two lists are read and sorted at once; the test list's problem is reported first, as
     // when it was read first.
-    let ((test_ids, test_order), train) = std::thread::scope(|scope| {
-        let train = scope.spawn(|| read_sorted(train, train_named_by, "train"));
-        let test = read_sorted(test, test_named_by, "test");
-        let train = train
-            .join()
-            .unwrap_or_else(|e| std::panic::resume_unwind(e));
-        test.map(|test| (test, train))
-    })?;
+    let (train, test) = crate::parallel::both(
+        || read_sorted(train, train_named_by, "train"),
+        || read_sorted(test, test_named_by, "test"),
+    );
+    let (test_ids, test_order) = test?;
     let (train_ids, train_order) = train?;
     Ok(overlap_sorted(
         (&train_ids, &train_order),
@@ -297,9 +294,11 @@ mod tests {
         assert_eq!(got.shared, shared.len() as u64);
         let firsts: Vec<&String> = got.examples.iter().collect();
         assert_eq!(firsts, shared[..SHOWN]);
-        // From both halves of id order: the list's first shared ids are its smallest and largest.
-        assert!(firsts.iter().any(|id| id.as_str() < "id0524288"));
-        assert!(firsts.iter().any(|id| id.as_str() > "id0524288"));
+        // From both halves of id order (split at the middle of the sorted train ids): the list's
+        // first shared ids are its smallest and largest.
+        let middle = format!("id{:07}", n / 2);
+        assert!(firsts.iter().any(|id| **id < middle));
+        assert!(firsts.iter().any(|id| **id > middle));
     }
 
     proptest::proptest! {

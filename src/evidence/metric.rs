@@ -345,49 +345,34 @@ pub struct Comparison {
     pub discordant: Option<(u64, u64)>,
 }
 
-/// Pairs past which [`tally`] counts on two threads.
-const TALLY_ON_TWO_THREADS: usize = 1 << 20;
+/// Pairs past which [`count_where`] counts on two threads.
+const COUNT_ON_TWO_THREADS: usize = 1 << 20;
 
-/// Sums the counts `count` gives each pair (row in the model, row in the baseline): on two
-/// threads, a half each, past [`TALLY_ON_TWO_THREADS`] pairs. The columns are read in id
-/// order, out of file order, so a pass is bound by memory latency; counts are whole numbers,
-/// so the sums are the same on any number of threads.
-fn tally<const N: usize>(
-    pairs: &[(u32, u32)],
-    count: impl Fn(usize, usize) -> [u64; N] + Sync,
-) -> [u64; N] {
-    tally_on(pairs, count, pairs.len() >= TALLY_ON_TWO_THREADS)
+/// The pairs (row in the model, row in the baseline) for which `holds` is true: on two
+/// threads, a half each, past [`COUNT_ON_TWO_THREADS`] pairs. The columns are read in id order,
+/// out of file order, so a pass is bound by memory latency; a count is a whole number, the same
+/// on any number of threads.
+fn count_where(pairs: &[(u32, u32)], holds: impl Fn(usize, usize) -> bool + Sync) -> u64 {
+    count_where_on(pairs, holds, pairs.len() >= COUNT_ON_TWO_THREADS)
 }
 
-/// [`tally`] on one thread or on two.
-fn tally_on<const N: usize>(
+/// [`count_where`] on one thread or on two.
+fn count_where_on(
     pairs: &[(u32, u32)],
-    count: impl Fn(usize, usize) -> [u64; N] + Sync,
+    holds: impl Fn(usize, usize) -> bool + Sync,
     two_threads: bool,
-) -> [u64; N] {
-    let sum = |part: &[(u32, u32)]| {
-        part.iter().fold([0u64; N], |mut sums, &(i, j)| {
-            for (s, c) in sums.iter_mut().zip(count(i as usize, j as usize)) {
-                *s += c;
-            }
-            sums
-        })
+) -> u64 {
+    let count = |part: &[(u32, u32)]| {
+        part.iter()
+            .map(|&(i, j)| u64::from(holds(i as usize, j as usize)))
+            .sum::<u64>()
     };
     if !two_threads {
-        return sum(pairs);
+        return count(pairs);
     }
     let (first, second) = pairs.split_at(pairs.len() / 2);
-    let (a, b) = std::thread::scope(|scope| {
-        let other = scope.spawn(|| sum(second));
-        let a = sum(first);
-        (
-            a,
-            other
-                .join()
-                .unwrap_or_else(|e| std::panic::resume_unwind(e)),
-        )
-    });
-    std::array::from_fn(|k| a[k] + b[k])
+    let (b, a) = crate::parallel::both(|| count(second), || count(first));
+    a + b
 }
 
 /// The baseline's class indices translated to the model's, by name.
@@ -405,17 +390,17 @@ fn to_model(model_classes: &[String], baseline_classes: &[String]) -> Vec<Option
 
 /// [`compare`] for accuracy, from McNemar's counts alone, tallied as the ids are walked
 /// ([`count_by_id`]; a pass reads the columns out of file order): b, rows only the model gets
-/// right; c, rows only the baseline does; and the rows whose labels differ. `to_model` maps the
-/// baseline's classes to the model's ([`to_model`]).
+/// right; c, rows only the baseline does; and the rows whose labels differ. Each side is given
+/// as its class names, labels and predictions.
 fn compare_accuracy(
     model: &PredictionSet,
     baseline: &PredictionSet,
-    (actual_a, predicted_a): (&[Class], &[Class]),
-    (actual_b, predicted_b): (&[Class], &[Class]),
-    to_model: &[Option<Class>],
+    (classes_a, actual_a, predicted_a): (&[String], &[Class], &[Class]),
+    (classes_b, actual_b, predicted_b): (&[String], &[Class], &[Class]),
     confidence: f64,
 ) -> Result<Comparison, String> {
     let err = |e: stats::StatsError| e.to_string();
+    let to_model = to_model(classes_a, classes_b);
     let counted = count_by_id(model, baseline, |i, j| {
         let (right_a, right_b) = (predicted_a[i] == actual_a[i], predicted_b[j] == actual_b[j]);
         [
@@ -471,14 +456,7 @@ pub fn compare(
             },
         ) = (&model.columns, &baseline.columns)
     {
-        return compare_accuracy(
-            model,
-            baseline,
-            (aa, pa),
-            (ab, pb),
-            &to_model(ca, cb),
-            confidence,
-        );
+        return compare_accuracy(model, baseline, (ca, aa, pa), (cb, ab, pb), confidence);
     }
     let (pairs, unpaired) = pair_by_id(model, baseline);
     let mut comparison = Comparison::new(pairs.len() as u64, unpaired)?;
@@ -499,21 +477,19 @@ pub fn compare(
                 ..
             },
         ) => {
-            let to_model = to_model(ca, cb);
-            let [mismatches] = tally(&pairs, |i, j| {
-                [u64::from(to_model[ab[j] as usize] != Some(aa[i]))]
-            });
-            comparison.label_mismatches = mismatches;
-            match metric {
-                // With both prediction columns, accuracy is compared by `compare_accuracy`.
-                Metric::Accuracy => {
-                    return Err(if pa.is_none() {
-                        "McNemar's test needs the model's `prediction` column"
-                    } else {
-                        "McNemar's test needs the baseline's `prediction` column"
-                    }
-                    .into());
+            // With both prediction columns, accuracy is compared by `compare_accuracy`.
+            if metric == Metric::Accuracy {
+                return Err(if pa.is_none() {
+                    "McNemar's test needs the model's `prediction` column"
+                } else {
+                    "McNemar's test needs the baseline's `prediction` column"
                 }
+                .into());
+            }
+            let to_model = to_model(ca, cb);
+            comparison.label_mismatches =
+                count_where(&pairs, |i, j| to_model[ab[j] as usize] != Some(aa[i]));
+            match metric {
                 Metric::RocAuc => {
                     let (sa, sb) = (
                         sa.as_ref()
@@ -646,8 +622,7 @@ pub fn compare(
                 prediction: yb,
             },
         ) => {
-            let [mismatches] = tally(&pairs, |i, j| [u64::from(ta[i] != tb[j])]);
-            comparison.label_mismatches = mismatches;
+            comparison.label_mismatches = count_where(&pairs, |i, j| ta[i] != tb[j]);
             let loss: fn(f64, f64) -> f64 = match metric {
                 Metric::Mae => |t, y| (t - y).abs(),
                 _ => |t, y| (t - y) * (t - y),
@@ -789,11 +764,12 @@ mod tests {
     use proptest::prelude::*;
 
     use super::*;
+    use crate::evidence::IdArena;
 
     /// Counts over pairs split between two threads against the counts taken by filtering the
     /// pairs directly (an odd number of pairs, so the halves differ in size).
     #[test]
-    fn a_tally_on_two_threads_counts_what_filtering_counts() {
+    fn a_count_on_two_threads_counts_what_filtering_counts() {
         let mut state = 0x853c_49e6_748f_ea9bu64;
         let pairs: Vec<(u32, u32)> = (0..10_001)
             .map(|_| {
@@ -803,23 +779,24 @@ mod tests {
                 ((state % 1000) as u32, (state >> 32) as u32 % 777)
             })
             .collect();
-        let count = |i: usize, j: usize| {
-            [
-                u64::from(i.is_multiple_of(3)),
-                u64::from(j.is_multiple_of(5)),
-                1,
-            ]
-        };
+        let third = |i: usize, _: usize| i.is_multiple_of(3);
+        let fifth = |_: usize, j: usize| j.is_multiple_of(5);
+        let every = |_: usize, _: usize| true;
         let direct = [
             pairs.iter().filter(|&&(i, _)| i.is_multiple_of(3)).count() as u64,
             pairs.iter().filter(|&&(_, j)| j.is_multiple_of(5)).count() as u64,
             pairs.len() as u64,
         ];
-        assert_eq!(tally_on(&pairs, count, true), direct);
-        assert_eq!(tally_on(&pairs, count, false), direct);
-        assert_eq!(tally_on(&[], count, true), [0, 0, 0]);
+        for two_threads in [true, false] {
+            let counts = [
+                count_where_on(&pairs, third, two_threads),
+                count_where_on(&pairs, fifth, two_threads),
+                count_where_on(&pairs, every, two_threads),
+            ];
+            assert_eq!(counts, direct);
+        }
+        assert_eq!(count_where_on(&[], every, true), 0);
     }
-    use crate::evidence::IdArena;
 
     /// A predictions set of `columns`, its rows named `r<row>` in `rows` order.
     fn set_of(rows: &[usize], columns: Columns) -> PredictionSet {

@@ -21,6 +21,8 @@ use std::cmp::Ordering;
 
 use sha2::{Digest, Sha256};
 
+use crate::parallel::both;
+
 /// Why an id with a control character is refused: a line break or tab inside an id (possible in
 /// a quoted CSV cell) would make two different id lists hash to the same fingerprint text and
 /// show as two rows in a report.
@@ -567,21 +569,6 @@ fn halves<'a>(a: Side<'a>, b: Side<'a>, two_threads: bool) -> Option<[(Side<'a>,
     Some([(a_first, b_first), (a_rest, b_rest)])
 }
 
-/// Runs `first` on a second thread and `second` on this one, and gives both results (a panic
-/// in either is raised here).
-fn both<A: Send, B>(first: impl FnOnce() -> A + Send, second: impl FnOnce() -> B) -> (A, B) {
-    std::thread::scope(|scope| {
-        let first = scope.spawn(first);
-        let second = second();
-        (
-            first
-                .join()
-                .unwrap_or_else(|e| std::panic::resume_unwind(e)),
-            second,
-        )
-    })
-}
-
 /// [`pair_by_id`] on two sides, on one thread or on two ([`halves`]). Each part fills its own
 /// stretch of one list, which has room for a pair per id of `a` (an id of the first list pairs
 /// once at most; the list is zeroed memory, so room never paired for stays untouched); the
@@ -617,6 +604,12 @@ pub struct Counted<const N: usize> {
 }
 
 impl<const N: usize> Counted<N> {
+    const NONE: Counted<N> = Counted {
+        pairs: 0,
+        unpaired: 0,
+        sums: [0; N],
+    };
+
     fn add(self, other: Counted<N>) -> Counted<N> {
         Counted {
             pairs: self.pairs + other.pairs,
@@ -662,14 +655,7 @@ fn count_sides<const N: usize>(
         a,
         b,
         two_threads,
-        || {
-            let counted = Counted {
-                pairs: 0,
-                unpaired: 0,
-                sums: [0; N],
-            };
-            (counted, Vec::with_capacity(COUNT_CHUNK))
-        },
+        || (Counted::NONE, Vec::with_capacity(COUNT_CHUNK)),
         |state, step| match step {
             Step::Both(ra, rb) => {
                 state.1.push((ra, rb));
@@ -680,16 +666,10 @@ fn count_sides<const N: usize>(
             Step::OnlyFirst(_) | Step::OnlySecond(_) => state.0.unpaired += 1,
         },
     );
-    let mut all = Counted {
-        pairs: 0,
-        unpaired: 0,
-        sums: [0; N],
-    };
-    for mut part in parts {
+    parts.into_iter().fold(Counted::NONE, |all, mut part| {
         flush(&mut part);
-        all = all.add(part.0);
-    }
-    all
+        all.add(part.0)
+    })
 }
 
 /// [`walk`] in parts: split in two at the first list's middle key past [`PAIR_ON_TWO_THREADS`]
@@ -854,9 +834,6 @@ mod tests {
         }
     }
 
-    /// Ids as hostile inputs give them: long shared prefixes on two dates (so most keys past the
-    /// shared prefix are equal), one list's prefix a prefix of another's, suffixes of unequal
-    /// length with bytes equal to the key's zero padding.
     /// Counting as the ids are walked over more shared rows than one chunk holds, on one thread
     /// and split in two: the counts the list of pairs gives (the pairs, the ids in one list
     /// only, and a sum over the pairs).
@@ -865,25 +842,20 @@ mod tests {
         // Every third id of the first list and every fifth of the second are their own: 8 in 15
         // are shared, over 3 chunks' worth.
         let n = 6 * COUNT_CHUNK + 100;
-        let first: Vec<String> = (0..n)
-            .map(|i| {
-                if i % 3 == 0 {
-                    format!("a{i}")
-                } else {
-                    format!("s{i}")
-                }
-            })
-            .collect();
-        let second: Vec<String> = (0..n)
-            .rev()
-            .map(|i| {
-                if i % 5 == 0 {
-                    format!("b{i}")
-                } else {
-                    format!("s{i}")
-                }
-            })
-            .collect();
+        // Row i holds `own` + i where i is a multiple of `every`, else the shared `s` + i.
+        let list = |rows: Vec<usize>, every: usize, own: &str| -> Vec<String> {
+            rows.into_iter()
+                .map(|i| {
+                    if i % every == 0 {
+                        format!("{own}{i}")
+                    } else {
+                        format!("s{i}")
+                    }
+                })
+                .collect()
+        };
+        let first = list((0..n).collect(), 3, "a");
+        let second = list((0..n).rev().collect(), 5, "b");
         let (a, b) = (arena(&first), arena(&second));
         let (a_order, b_order) = (a.sorted(), b.sorted());
         let (sa, sb) = sides((&a, &a_order), (&b, &b_order));
@@ -903,6 +875,9 @@ mod tests {
         }
     }
 
+    /// Ids as hostile inputs give them: long shared prefixes on two dates (so most keys past the
+    /// shared prefix are equal), one list's prefix a prefix of another's, suffixes of unequal
+    /// length with bytes equal to the key's zero padding.
     pub(crate) fn hostile_id() -> impl proptest::strategy::Strategy<Value = String> {
         use proptest::strategy::Strategy;
         let prefixes = [

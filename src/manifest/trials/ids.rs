@@ -88,15 +88,11 @@ impl<S: BuildHasher + Sync> TrialIds<S> {
             return repeats;
         }
         let (mut low, mut high): (Vec<u64>, Vec<u64>) = keys.partition(|key| key >> 63 == 0);
-        let mut repeats = std::thread::scope(|scope| {
-            let other = scope.spawn(|| self.repeats_among(&mut high, ordinal_mask));
-            let mut repeats = self.repeats_among(&mut low, ordinal_mask);
-            match other.join() {
-                Ok(more) => repeats.extend(more),
-                Err(panic) => std::panic::resume_unwind(panic),
-            }
-            repeats
-        });
+        let (more, mut repeats) = crate::parallel::both(
+            || self.repeats_among(&mut high, ordinal_mask),
+            || self.repeats_among(&mut low, ordinal_mask),
+        );
+        repeats.extend(more);
         repeats.sort_unstable();
         repeats
     }

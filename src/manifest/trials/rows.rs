@@ -38,9 +38,8 @@ const RECORDS_PER_BATCH: usize = 4096;
 struct Columns {
     id: usize,
     folds: Vec<usize>,
-    /// Fields of the header, which every record must have.
-    width: usize,
-    /// What each of the `width` columns holds, for [`Parsed::whole_line`].
+    /// What each field of the header holds (every record must have as many), for
+    /// [`Parsed::whole_line`].
     roles: Vec<Role>,
 }
 
@@ -63,12 +62,12 @@ impl Columns {
             roles[c] = Role::Fold(k);
         }
         roles[id] = Role::Id;
-        Columns {
-            id,
-            folds,
-            width,
-            roles,
-        }
+        Columns { id, folds, roles }
+    }
+
+    /// Fields of the header, which every record must have.
+    fn width(&self) -> usize {
+        self.roles.len()
     }
 }
 
@@ -114,7 +113,7 @@ impl Parsed {
         cell: impl Fn(usize) -> &'a [u8],
     ) {
         let trials = self.lines.len();
-        if fields != columns.width {
+        if fields != columns.width() {
             self.problems
                 .push((trials, Problem::Ragged { line, fields }));
             return;
@@ -165,7 +164,7 @@ impl Parsed {
     fn plain(block: &[u8], columns: &Columns, mut parsed: Parsed) -> Parsed {
         parsed.clear();
         // Where each field of a line starts, for the general path.
-        let mut starts: Vec<usize> = Vec::with_capacity(columns.width + 1);
+        let mut starts: Vec<usize> = Vec::with_capacity(columns.width() + 1);
         let mut line = 0;
         let mut at = 0;
         while at < block.len() {
@@ -191,7 +190,7 @@ impl Parsed {
         parsed
     }
 
-    /// Reads the line of `block` that starts at `at` as a well-formed trial: `columns.width`
+    /// Reads the line of `block` that starts at `at` as a well-formed trial: `columns.width()`
     /// fields split at commas, the last ending at a line feed (a carriage return before it
     /// dropped) or at the end of the block, a UTF-8 id and a number in every fold cell. Keeps
     /// the trial and returns where the line ends (its line feed, or the block's length); `None`,
@@ -295,7 +294,8 @@ fn word_at(block: &[u8], at: usize) -> Option<u64> {
 }
 
 /// Where the cell of `block` that starts at `from` ends: its comma or line feed, or the end of
-/// the block. A word at a time while 8 bytes remain, then byte by byte.
+/// the block. A word at a time while 8 bytes remain (cells are a few bytes long, too short
+/// for a vector search to gain), then `memchr2` on the rest.
 fn cell_end(block: &[u8], from: usize) -> usize {
     let mut p = from;
     while let Some(word) = word_at(block, p) {
@@ -304,10 +304,7 @@ fn cell_end(block: &[u8], from: usize) -> usize {
             None => p += 8,
         }
     }
-    p + block[p..]
-        .iter()
-        .position(|&b| b == b',' || b == b'\n')
-        .unwrap_or(block.len() - p)
+    memchr::memchr2(b',', b'\n', &block[p..]).map_or(block.len(), |at| p + at)
 }
 
 /// Whether a block is plain: no quote, so every line break ends a record.
@@ -837,7 +834,7 @@ impl TrialReader<'_> {
             while let Some((_, problem)) = problems.next_if(|(before, _)| *before == trial) {
                 match problem {
                     Problem::Ragged { line, fields } => {
-                        self.ragged(first_line + line, *fields, columns.width)
+                        self.ragged(first_line + line, *fields, columns.width())
                     }
                     Problem::Id { line } => self.problem(
                         Place::new(first_line + line, columns.id as u64 + 1),
