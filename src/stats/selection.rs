@@ -87,8 +87,13 @@ impl SelectionBias {
         if self.trials == 0 {
             self.fold_max = fold_scores.to_vec();
         } else {
+            // Strictly greater: the first of equal maxima stays (0.0 and -0.0 are equal), so
+            // that trials summed in runs and joined ([`absorb`](Self::absorb)) give the same
+            // bits as trials pushed one by one.
             for (max, &s) in self.fold_max.iter_mut().zip(fold_scores) {
-                *max = max.max(s);
+                if s > *max {
+                    *max = s;
+                }
             }
         }
         // Strictly greater: the first trial wins ties.
@@ -98,6 +103,41 @@ impl SelectionBias {
             self.best_index = usize::try_from(self.trials).unwrap_or(usize::MAX);
         }
         self.trials += 1;
+        Ok(())
+    }
+
+    /// Adds the trials of `later`, pushed after this accumulator's own: the state is the one
+    /// pushing them here one by one would give, so runs of trials can be summed apart (on other
+    /// threads) and joined in order. On error nothing is changed.
+    /// Errors: `folds` is 0; `later` counts another number of folds.
+    pub fn absorb(&mut self, later: &SelectionBias) -> Result<()> {
+        self.check_folds()?;
+        if later.folds != self.folds {
+            return Err(StatsError::LengthMismatch {
+                name: "fold_scores",
+                expected: self.folds,
+                got: later.folds,
+            });
+        }
+        if later.trials == 0 {
+            return Ok(());
+        }
+        if self.trials == 0 {
+            self.clone_from(later);
+            return Ok(());
+        }
+        for (max, &s) in self.fold_max.iter_mut().zip(&later.fold_max) {
+            if s > *max {
+                *max = s;
+            }
+        }
+        if later.best_mean > self.best_mean {
+            self.best_mean = later.best_mean;
+            self.best_scores.clone_from(&later.best_scores);
+            let before = usize::try_from(self.trials).unwrap_or(usize::MAX);
+            self.best_index = before.saturating_add(later.best_index);
+        }
+        self.trials += later.trials;
         Ok(())
     }
 
@@ -204,6 +244,54 @@ mod tests {
         assert_eq!(e.selected_index, 0);
         // Per-fold maxima 0.7, 0.7; selected 0.5, 0.7; B̂ = (0.2 + 0)/2 = 0.1 (hand arithmetic).
         assert!((e.bias - 0.1).abs() < 1e-15);
+    }
+
+    /// A score from a small set with ties, both zeros among them, so that which of equal
+    /// maxima is kept shows in the bits.
+    fn tied_score() -> impl proptest::strategy::Strategy<Value = f64> {
+        proptest::sample::select(vec![0.0, -0.0, 0.25, 0.5, -0.5, 1.0])
+    }
+
+    proptest::proptest! {
+        /// Trials cut into runs, each run summed alone and the runs absorbed in order, give the
+        /// state pushing every trial in order gives, to the bit.
+        #[test]
+        fn runs_absorbed_in_order_are_trials_pushed_in_order(
+            trials in proptest::collection::vec(proptest::collection::vec(tied_score(), 3), 1..40),
+            cuts in proptest::collection::vec(0usize..40, 0..5),
+        ) {
+            let mut one = SelectionBias::new(3);
+            for t in &trials {
+                one.push(t).unwrap();
+            }
+            let mut cuts: Vec<usize> = cuts.into_iter().map(|c| c % (trials.len() + 1)).collect();
+            cuts.extend([0, trials.len()]);
+            cuts.sort_unstable();
+            let mut joined = SelectionBias::new(3);
+            for run in cuts.windows(2) {
+                let mut part = SelectionBias::new(3);
+                for t in &trials[run[0]..run[1]] {
+                    part.push(t).unwrap();
+                }
+                joined.absorb(&part).unwrap();
+            }
+            proptest::prop_assert_eq!(format!("{joined:?}"), format!("{one:?}"));
+            proptest::prop_assert_eq!(
+                format!("{:?}", joined.finish_for(0, &trials[0])),
+                format!("{:?}", one.finish_for(0, &trials[0]))
+            );
+        }
+    }
+
+    #[test]
+    fn absorbing_another_number_of_folds_changes_nothing() {
+        let mut acc = SelectionBias::new(2);
+        acc.push(&[0.5, 0.6]).unwrap();
+        let before = acc.clone();
+        let mut other = SelectionBias::new(3);
+        other.push(&[0.9, 0.9, 0.9]).unwrap();
+        assert!(acc.absorb(&other).is_err());
+        assert_eq!(acc, before);
     }
 
     #[test]

@@ -54,6 +54,34 @@ impl<S: BuildHasher + Sync> TrialIds<S> {
         Some(ordinal)
     }
 
+    /// Appends the ids `bytes[ends[i - 1]..ends[i]]` (the first from 0), as [`TrialIds::push`]
+    /// of each in turn would; false, with nothing appended, when they would pass 4 GiB or
+    /// 2^32 ids, or `ends` does not end at the end of `bytes`.
+    pub(super) fn append(&mut self, bytes: &[u8], ends: &[usize]) -> bool {
+        let before = self.bytes.len();
+        let fits = |n: usize| u32::try_from(n).is_ok();
+        if ends.last().copied().unwrap_or(0) != bytes.len()
+            || !fits(before + bytes.len())
+            || !fits(self.ends.len() + ends.len())
+        {
+            return false;
+        }
+        self.bytes.extend_from_slice(bytes);
+        // Each end fits: the last, the largest, does.
+        self.ends.extend(
+            ends.iter()
+                .map(|&end| u32::try_from(before + end).unwrap_or(u32::MAX)),
+        );
+        true
+    }
+
+    /// Keeps the first `len` ids only.
+    pub(super) fn truncate(&mut self, len: usize) {
+        self.ends.truncate(len);
+        let bytes = self.ends.last().map_or(0, |&end| end as usize);
+        self.bytes.truncate(bytes);
+    }
+
     /// The id of `ordinal`.
     pub(super) fn get(&self, ordinal: u32) -> &[u8] {
         let i = ordinal as usize;

@@ -7,7 +7,8 @@
 //! Tibshirani & Tibshirani accumulator and a histogram of mean scores, whose sizes depend on the
 //! number of folds only; the one thing kept per trial is its id ([`TrialIds`]: the id's bytes, 4
 //! bytes of index and 4 of line number), so that a duplicate is caught exactly and named with its
-//! line. CSV is read by [`rows`]. scikit-learn's `cv_results_` as pandas writes it is read too
+//! line. CSV is read by [`rows`], whose parsing threads also add up each run of trials for the
+//! reader to join in one step ([`sums`]). scikit-learn's `cv_results_` as pandas writes it is read too
 //! ([`super::sklearn`]); its JSON form is parsed whole, so it has a smaller size limit.
 //!
 //! The bias is computed for the configuration the manifest reports, never for whichever trial
@@ -18,6 +19,7 @@
 mod ids;
 mod number;
 mod rows;
+mod sums;
 
 use std::collections::BTreeMap;
 use std::io::BufRead;

@@ -65,6 +65,7 @@ const fn zero_bytes(x: u64) -> u64 {
 
 /// Where the first comma or line feed is among the 8 bytes of `word` (read little-endian: the
 /// first byte lowest), or `None` when none of them is one.
+#[inline]
 pub(super) fn delimiter_in(word: u64) -> Option<usize> {
     let marks = zero_bytes(word ^ each_byte(b',')) | zero_bytes(word ^ each_byte(b'\n'));
     (marks != 0).then(|| (marks.trailing_zeros() / 8) as usize)
@@ -76,6 +77,7 @@ pub(super) fn delimiter_in(word: u64) -> Option<usize> {
 /// [`decimal`] gives for it and the cell's length. `None` for anything else (the caller reads
 /// the cell byte by byte). Cells of at most 7 bytes hold at most 7 digits, so [`decimal`]'s
 /// limits on digits never apply.
+#[inline]
 pub(super) fn short_decimal(word: u64) -> Option<(f64, usize)> {
     let len = delimiter_in(word)?;
     if len == 0 {

@@ -17,6 +17,7 @@ use std::io::Read;
 
 use super::TrialReader;
 use super::number::{delimiter_in, parse_score, short_decimal};
+use super::sums::{Checks, Sums};
 use crate::diag::Place;
 
 /// Bytes read for the main thread's block before it is cut after its last line break (the second
@@ -86,6 +87,9 @@ struct Parsed {
     newlines: u64,
     /// Bytes of the run (of a plain block; 0 from the csv crate).
     bytes: usize,
+    /// What the trials add up to, for [`TrialReader::take_sums`] (of a plain block without
+    /// problems; from the csv crate, never clean).
+    sums: Sums,
 }
 
 /// A problem with one record, found while parsing (see [`TrialReader::take`] for the messages).
@@ -161,7 +165,7 @@ impl Parsed {
     ///
     /// `parsed` is an earlier run's, emptied here: its lists keep their room, so a block's
     /// trials need no fresh memory.
-    fn plain(block: &[u8], columns: &Columns, mut parsed: Parsed) -> Parsed {
+    fn plain(block: &[u8], columns: &Columns, checks: &Checks, mut parsed: Parsed) -> Parsed {
         parsed.clear();
         // Where each field of a line starts, for the general path.
         let mut starts: Vec<usize> = Vec::with_capacity(columns.width() + 1);
@@ -187,6 +191,15 @@ impl Parsed {
         }
         parsed.newlines = line;
         parsed.bytes = block.len();
+        let room = std::mem::take(&mut parsed.sums);
+        if parsed.problems.is_empty() {
+            let ids = parsed.id_ends.iter().scan(0, |start, &end| {
+                let id = &parsed.ids[*start..end];
+                *start = end;
+                Some(id)
+            });
+            parsed.sums = Sums::of(checks, ids, &parsed.scores, room);
+        }
         parsed
     }
 
@@ -677,6 +690,8 @@ impl TrialReader<'_> {
         mut line: u64,
     ) {
         let size = blocks.block_bytes;
+        let checks = Checks::new(self.metric, self.folds, self.selected.clone());
+        let checks = &checks;
         let mut theirs = Vec::new();
         let mut fill = blocks.fill(&mut theirs, THEIRS * size);
         // The next round's blocks, read during this one.
@@ -688,10 +703,17 @@ impl TrialReader<'_> {
             let (for_theirs, for_mine) = (spare.pop(), spare.pop());
             let (going, parsed, next) = std::thread::scope(|scope| {
                 let other = (fill == Fill::Plain).then(|| {
-                    scope.spawn(|| Parsed::plain(&theirs, columns, for_theirs.unwrap_or_default()))
+                    scope.spawn(|| {
+                        Parsed::plain(&theirs, columns, checks, for_theirs.unwrap_or_default())
+                    })
                 });
                 let going = self.take_all(&before, columns, &mut line);
-                let mut parsed = vec![Parsed::plain(&mine, columns, for_mine.unwrap_or_default())];
+                let mut parsed = vec![Parsed::plain(
+                    &mine,
+                    columns,
+                    checks,
+                    for_mine.unwrap_or_default(),
+                )];
                 let next = (going && fill == Fill::Plain).then(|| {
                     let next = blocks.fill(&mut next_mine, size);
                     let after = match next {
@@ -828,6 +850,17 @@ impl TrialReader<'_> {
     /// Pushes the trials of `parsed` and reports its problems, in file order, its line 0 being
     /// the file's `first_line`. False once the problems are too many to go on.
     fn take(&mut self, parsed: &Parsed, columns: &Columns, first_line: u64) -> bool {
+        if parsed.problems.is_empty()
+            && self.take_sums(
+                &parsed.sums,
+                (&parsed.ids, &parsed.id_ends),
+                &parsed.lines,
+                &parsed.scores,
+                first_line,
+            )
+        {
+            return true;
+        }
         let folds = columns.folds.len();
         let mut problems = parsed.problems.iter().peekable();
         for trial in 0..=parsed.lines.len() {
@@ -873,7 +906,7 @@ impl TrialReader<'_> {
 mod tests {
     use super::*;
     use crate::manifest::Metric;
-    use crate::manifest::trials::Selected;
+    use crate::manifest::trials::{Named, Selected};
     use proptest::prelude::*;
 
     fn reader() -> TrialReader<'static> {
@@ -881,6 +914,29 @@ mod tests {
             folds: vec![0.8, 0.9],
             named: None,
         })
+    }
+
+    /// A reader of two folds for `metric`, with no selected configuration, one found by its
+    /// fold scores, or one named by its id.
+    fn reader_for(metric: Metric, selection: u8) -> TrialReader<'static> {
+        let reader = TrialReader::new("t.csv", metric, 2);
+        let named = |id: &str| Named {
+            id: id.to_owned(),
+            file: "m.json".to_owned(),
+            place: Place::default(),
+            path: "search.selected_trial".to_owned(),
+        };
+        match selection {
+            0 => reader,
+            1 => reader.select(Selected {
+                folds: vec![0.8, 0.9],
+                named: None,
+            }),
+            _ => reader.select(Selected {
+                folds: vec![0.8, 0.9],
+                named: Some(named("t7")),
+            }),
+        }
     }
 
     /// The summary or the problems, as text.
@@ -991,6 +1047,40 @@ mod tests {
             prop_assert!(plain(&text));
             prop_assert_eq!(in_blocks(&text, block), in_blocks(&text, BLOCK_BYTES));
             prop_assert_eq!(in_blocks(&text, block), by_record(&text));
+        }
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(256))]
+
+        /// Trials that all pass, joined by their sums when read in blocks, give what pushing
+        /// them one by one through the csv crate's path gives: the same accumulator (tied best
+        /// means, the selected configuration's bias), candidate, matching count and histogram,
+        /// for a metric either way round and each kind of selection.
+        #[test]
+        fn runs_joined_by_their_sums_read_as_trials_pushed_one_by_one(
+            scores in proptest::collection::vec((0usize..6, 0usize..6), 1..200),
+            lower_is_better in any::<bool>(),
+            selection in 0u8..3,
+            block in 16usize..300,
+        ) {
+            const VALUES: [&str; 6] = ["0.8", "0.9", "0.75", "1", "0", "0.5"];
+            let mut text = String::from("id,fold_1,fold_2\n");
+            for (i, (a, b)) in scores.iter().enumerate() {
+                text.push_str(&format!("t{i},{},{}\n", VALUES[*a], VALUES[*b]));
+            }
+            let text = text.into_bytes();
+            let metric = if lower_is_better { Metric::LogLoss } else { Metric::Accuracy };
+            let mut blocks = reader_for(metric, selection);
+            blocks.read_csv_in_blocks(&text[..], block);
+            let mut records = reader_for(metric, selection);
+            let mut csv = super::records(&text[..], true);
+            let header = records.header(&mut csv).expect("a header");
+            let Some(Layout::Trials(columns)) = records.layout(&header) else {
+                panic!("the trials layout");
+            };
+            records.read_records(csv, &columns, 1);
+            prop_assert_eq!(outcome(blocks), outcome(records));
         }
     }
 
