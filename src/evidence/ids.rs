@@ -81,16 +81,26 @@ fn read_all(path: &Path, named_by: &str, which: &str) -> Result<IdArena, Diagnos
             return Ok(ids);
         }
         let mut start = 0;
-        for end in memchr::memchr_iter(b'\n', buffer) {
+        // A line cut off at the end of the last buffer is completed first.
+        if !cut_off.is_empty()
+            && let Some(first) = memchr::memchr(b'\n', buffer)
+        {
             number += 1;
-            let line = &buffer[start..=end];
-            if cut_off.is_empty() {
-                add_line(&mut ids, line, number, path, which)?;
-            } else {
-                cut_off.extend_from_slice(line);
-                add_line(&mut ids, &cut_off, number, path, which)?;
-                cut_off.clear();
-            }
+            cut_off.extend_from_slice(&buffer[..=first]);
+            add_line(&mut ids, &cut_off, number, path, which)?;
+            cut_off.clear();
+            start = first + 1;
+        }
+        // Then the whole lines after it: in one pass when they are plain ids, else one by one.
+        let whole = memchr::memrchr(b'\n', buffer).map_or(start, |last| (last + 1).max(start));
+        if let Some(count) = ids.push_lines(&buffer[start..whole]) {
+            number += count;
+            start = whole;
+        }
+        let rest = start;
+        for end in memchr::memchr_iter(b'\n', &buffer[..whole]).skip_while(|&end| end < rest) {
+            number += 1;
+            add_line(&mut ids, &buffer[start..=end], number, path, which)?;
             start = end + 1;
         }
         cut_off.extend_from_slice(&buffer[start..]);
@@ -232,14 +242,11 @@ mod tests {
         text
     }
 
-    #[test]
-    fn lines_cut_off_at_the_buffer_end_are_read_whole() {
-        let text = long_list();
-        assert!(text.len() > 2 << 20);
-        let dir = tempfile::tempdir().unwrap();
-        let path = dir.path().join("ids.txt");
-        std::fs::write(&path, &text).unwrap();
-        let ids = read_all(&path, "the test", "test").unwrap();
+    /// Writes `text` to `path` and reads it as the obvious reading does: the text split at line
+    /// breaks, each line trimmed, blank ones dropped.
+    fn read_as_split_lines(path: &Path, text: &str) {
+        std::fs::write(path, text).unwrap();
+        let ids = read_all(path, "the test", "test").unwrap();
         let expected: Vec<&str> = text
             .split('\n')
             .map(str::trim)
@@ -249,6 +256,15 @@ mod tests {
         for (i, id) in expected.iter().enumerate() {
             assert_eq!(ids.get(i), id.as_bytes(), "id {i}");
         }
+    }
+
+    #[test]
+    fn lines_cut_off_at_the_buffer_end_are_read_whole() {
+        let text = long_list();
+        assert!(text.len() > 2 << 20);
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("ids.txt");
+        read_as_split_lines(&path, &text);
 
         // A tab inside an id past the first buffer: its line and column (within the trimmed id,
         // 1-based) are counted from the text.
@@ -262,6 +278,89 @@ mod tests {
         let diagnostic = read_all(&path, "the test", "test").unwrap_err();
         assert_eq!(diagnostic.line, Some(line));
         assert_eq!(diagnostic.column, Some((at - start - lead) as u64 + 1));
+    }
+
+    /// About 3 MB of plain ids (so most of the reader's 1 MiB buffers are read in one pass),
+    /// with blank lines, and in the middle buffer only a few lines the one-pass reader leaves to
+    /// the line-by-line path (spaces, a CRLF, a tab inside an id): read against the text split
+    /// at line breaks, each line trimmed, blank ones dropped; and the tab's line and column,
+    /// counted from the text, through the buffers read in one pass before it.
+    #[test]
+    fn plain_buffers_read_in_one_pass_as_line_by_line() {
+        let mut text = String::new();
+        let mut i = 0u64;
+        while text.len() < 3 << 20 {
+            let id = format!("row-{}", i * 7919 % 1_000_003);
+            match i % 50 {
+                0 => text.push_str(&format!("{id}\n\n")),
+                _ => text.push_str(&format!("{id}\n")),
+            }
+            if i == 100_000 {
+                text.push_str(" spaced \r\nafter-crlf\n");
+            }
+            i += 1;
+        }
+        text.push_str("last");
+        let (buffer, spaced) = (1 << 20, text.find(" spaced").unwrap());
+        assert!(
+            spaced > buffer && spaced < 2 * buffer,
+            "in the middle buffer"
+        );
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("ids.txt");
+        read_as_split_lines(&path, &text);
+
+        // A tab in the last buffer, after two read in one pass or partly line by line.
+        let at = 2 * buffer + 1_000;
+        let at = at + text[at..].find('-').unwrap();
+        let start = text[..at].rfind('\n').unwrap() + 1;
+        let line = text[..at].matches('\n').count() as u64 + 1;
+        let mut bad = text.into_bytes();
+        bad[at] = b'\t';
+        std::fs::write(&path, &bad).unwrap();
+        let diagnostic = read_all(&path, "the test", "test").unwrap_err();
+        assert_eq!(diagnostic.line, Some(line));
+        assert_eq!(diagnostic.column, Some((at - start) as u64 + 1));
+    }
+
+    proptest::proptest! {
+        /// Lines taken in one pass are what taking each line's cleaned id would add, and text
+        /// of plain ids is taken; anything the one pass leaves is left untouched.
+        #[test]
+        fn lines_in_one_pass_are_lines_one_by_one(
+            text in proptest::collection::vec(
+                proptest::sample::select(b"ab\n\n \r\t\x00\x7f\xc3\xa9".to_vec()),
+                0..200,
+            ),
+            kind in 0..3,
+        ) {
+            // Any bytes; plain ids; plain ids with spaces, which the one pass must not take.
+            let mut text = text;
+            let plain = kind == 1;
+            if kind > 0 {
+                let keep: &[u8] = if plain { b"ab\n\xc3\xa9" } else { b"ab \n\xc3\xa9" };
+                text.retain(|b| keep.contains(b));
+                text.push(b'\n');
+            }
+            let mut one_pass = IdArena::default();
+            one_pass.push(b"before").unwrap();
+            let before = one_pass.clone();
+            let mut by_line = before.clone();
+            let lines: Vec<&[u8]> = text.split_inclusive(|&b| b == b'\n').collect();
+            match one_pass.push_lines(&text) {
+                Some(count) => {
+                    proptest::prop_assert_eq!(count as usize, lines.len());
+                    for line in lines {
+                        add_line(&mut by_line, line, 1, Path::new("t"), "test").unwrap();
+                    }
+                    proptest::prop_assert_eq!(one_pass, by_line);
+                }
+                None => {
+                    proptest::prop_assert!(!plain, "plain ids were left to the line-by-line path");
+                    proptest::prop_assert_eq!(one_pass, before);
+                }
+            }
+        }
     }
 
     fn arena(ids: &[String]) -> IdArena {

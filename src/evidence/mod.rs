@@ -43,6 +43,15 @@ pub fn control_at(id: &[u8]) -> Option<usize> {
     id.iter().position(|&b| is_control(b))
 }
 
+/// The high bit of each byte of `word` that is a line feed, and no other bit.
+fn line_feeds(word: u64) -> u64 {
+    const LOW: u64 = u64::from_ne_bytes([0x7f; 8]);
+    let x = word ^ u64::from_ne_bytes([b'\n'; 8]);
+    // A byte's high bit ends up set when any of its bits is: exact per byte, no carry between
+    // bytes (each low-seven-bit sum stays below 0x100).
+    !(((x & LOW) + LOW) | x | LOW)
+}
+
 /// Row ids stored back to back in one buffer.
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct IdArena {
@@ -93,6 +102,53 @@ impl IdArena {
         self.bytes.extend_from_slice(id);
         self.ends.push(end);
         Some(())
+    }
+
+    /// Adds the id of each non-empty line of `lines`, whole lines each ended by a line feed
+    /// (the last one too) holding no control character or space but that line feed: what
+    /// [`IdArena::push`] of each line's id would add, in one pass with no per-id checks. The
+    /// number of lines, or `None` with nothing added when `lines` is not such text or the
+    /// arena would pass 4 GiB (the caller then reads the lines one by one).
+    pub fn push_lines(&mut self, lines: &[u8]) -> Option<u64> {
+        // Without an early exit, so the scan vectorises; a zero byte is a control character.
+        let unusual = lines.iter().fold(false, |found, &b| {
+            found | ((b <= b' ') & (b != b'\n')) | (b == 0x7f)
+        });
+        if unusual
+            || lines.last().is_some_and(|&b| b != b'\n')
+            || u32::try_from(self.bytes.len() + lines.len()).is_err()
+        {
+            return None;
+        }
+        self.bytes.reserve(lines.len());
+        let mut start = 0;
+        let mut count = 0;
+        let mut line = |end: usize| {
+            count += 1;
+            if end > start {
+                self.bytes.extend_from_slice(&lines[start..end]);
+                // Fits: the arena and all of `lines` do.
+                self.ends.push(self.bytes.len() as u32);
+            }
+            start = end + 1;
+        };
+        // Line feeds found a word at a time (ids are short: a search call per line costs more).
+        let words = lines.chunks_exact(8);
+        let tail = words.remainder().len();
+        for (w, word) in words.enumerate() {
+            let mut feeds = line_feeds(u64::from_le_bytes(word.try_into().unwrap_or_default()));
+            while feeds != 0 {
+                line(8 * w + (feeds.trailing_zeros() / 8) as usize);
+                feeds &= feeds - 1;
+            }
+        }
+        let from = lines.len() - tail;
+        for (i, &b) in lines[from..].iter().enumerate() {
+            if b == b'\n' {
+                line(from + i);
+            }
+        }
+        Some(count)
     }
 
     pub fn len(&self) -> usize {
@@ -888,6 +944,24 @@ mod tests {
         ];
         (0..prefixes.len(), "[01z\u{0}]{0,10}")
             .prop_map(move |(p, s)| format!("{}{s}", prefixes[p]))
+    }
+
+    /// Every byte value at every place of a word, the other bytes line feeds or not: the marks
+    /// are the line feeds' high bits, by comparing each byte with `b'\n'`.
+    #[test]
+    fn line_feeds_are_marked_exactly() {
+        for fill in [b'\n', b'a', 0x0b, 0x00, 0xff] {
+            for at in 0..8 {
+                for b in 0..=255u8 {
+                    let mut bytes = [fill; 8];
+                    bytes[at] = b;
+                    let want = bytes.iter().enumerate().fold(0u64, |m, (i, &x)| {
+                        m | (u64::from(x == b'\n') << (8 * i + 7))
+                    });
+                    assert_eq!(line_feeds(u64::from_le_bytes(bytes)), want, "{bytes:?}");
+                }
+            }
+        }
     }
 
     fn arena(ids: &[String]) -> IdArena {
