@@ -611,6 +611,25 @@ impl<R: Read> Read for Bounded<R> {
     }
 }
 
+/// CSV text for the readers' tests: a header line, then each row followed by its line ending,
+/// the endings after the last row dropped unless `last_break`.
+#[cfg(test)]
+pub(crate) fn csv_text<'a>(
+    header: &str,
+    rows: impl IntoIterator<Item = (String, &'a str)>,
+    last_break: bool,
+) -> Vec<u8> {
+    let mut text = format!("{header}\n");
+    for (row, ending) in rows {
+        text.push_str(&row);
+        text.push_str(ending);
+    }
+    if !last_break {
+        text.truncate(text.trim_end_matches(['\r', '\n']).len());
+    }
+    text.into_bytes()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

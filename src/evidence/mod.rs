@@ -13,6 +13,7 @@ pub mod columnar;
 pub mod ids;
 pub mod metric;
 pub mod oof;
+mod plain;
 pub mod read;
 
 pub use read::read_predictions;
@@ -43,10 +44,10 @@ pub fn control_at(id: &[u8]) -> Option<usize> {
     id.iter().position(|&b| is_control(b))
 }
 
-/// The high bit of each byte of `word` that is a line feed, and no other bit.
-fn line_feeds(word: u64) -> u64 {
+/// The high bit of each byte of `word` that equals `byte`, and no other bit.
+pub(crate) fn bytes_equal(word: u64, byte: u8) -> u64 {
     const LOW: u64 = u64::from_ne_bytes([0x7f; 8]);
-    let x = word ^ u64::from_ne_bytes([b'\n'; 8]);
+    let x = word ^ u64::from_ne_bytes([byte; 8]);
     // A byte's high bit ends up set when any of its bits is: exact per byte, no carry between
     // bytes (each low-seven-bit sum stays below 0x100).
     !(((x & LOW) + LOW) | x | LOW)
@@ -136,7 +137,8 @@ impl IdArena {
         let words = lines.chunks_exact(8);
         let tail = words.remainder().len();
         for (w, word) in words.enumerate() {
-            let mut feeds = line_feeds(u64::from_le_bytes(word.try_into().unwrap_or_default()));
+            let word = u64::from_le_bytes(word.try_into().unwrap_or_default());
+            let mut feeds = bytes_equal(word, b'\n');
             while feeds != 0 {
                 line(8 * w + (feeds.trailing_zeros() / 8) as usize);
                 feeds &= feeds - 1;
@@ -946,19 +948,23 @@ mod tests {
             .prop_map(move |(p, s)| format!("{}{s}", prefixes[p]))
     }
 
-    /// Every byte value at every place of a word, the other bytes line feeds or not: the marks
-    /// are the line feeds' high bits, by comparing each byte with `b'\n'`.
+    /// Every byte value at every place of a word, among other bytes equal to the one looked
+    /// for or not, for a line feed, a comma and the bytes at either end: the marks are the high
+    /// bits of the bytes equal to it, by comparing each byte.
     #[test]
-    fn line_feeds_are_marked_exactly() {
-        for fill in [b'\n', b'a', 0x0b, 0x00, 0xff] {
-            for at in 0..8 {
-                for b in 0..=255u8 {
-                    let mut bytes = [fill; 8];
-                    bytes[at] = b;
-                    let want = bytes.iter().enumerate().fold(0u64, |m, (i, &x)| {
-                        m | (u64::from(x == b'\n') << (8 * i + 7))
-                    });
-                    assert_eq!(line_feeds(u64::from_le_bytes(bytes)), want, "{bytes:?}");
+    fn equal_bytes_are_marked_exactly() {
+        for sought in [b'\n', b',', 0x00, 0x7f, 0x80, 0xff] {
+            for fill in [sought, b'a', sought ^ 1, 0x00, 0xff] {
+                for at in 0..8 {
+                    for b in 0..=255u8 {
+                        let mut bytes = [fill; 8];
+                        bytes[at] = b;
+                        let want = bytes.iter().enumerate().fold(0u64, |m, (i, &x)| {
+                            m | (u64::from(x == sought) << (8 * i + 7))
+                        });
+                        let got = bytes_equal(u64::from_le_bytes(bytes), sought);
+                        assert_eq!(got, want, "{sought} in {bytes:?}");
+                    }
                 }
             }
         }
@@ -973,6 +979,27 @@ mod tests {
     }
 
     proptest::proptest! {
+        /// The shared prefix is the longest prefix every id starts with, counted byte by byte:
+        /// ids of 0 to 20 bytes sharing prefixes shorter and longer than a word, the last ones
+        /// within 8 bytes of the arena's end.
+        #[test]
+        fn the_common_prefix_is_the_longest_every_id_starts_with(
+            stem in "[ab]{0,12}",
+            tails in proptest::collection::vec("[ab]{0,8}", 1..12),
+            cut in proptest::collection::vec(0usize..21, 1..12),
+        ) {
+            let ids: Vec<String> = tails
+                .iter()
+                .zip(cut.iter().cycle())
+                .map(|(tail, &cut)| format!("{stem}{tail}").chars().take(cut).collect())
+                .collect();
+            let longest = (0..=ids[0].len())
+                .rev()
+                .find(|&n| ids.iter().all(|id| id.as_bytes().starts_with(&ids[0].as_bytes()[..n])))
+                .unwrap_or(0);
+            proptest::prop_assert_eq!(arena(&ids).common_prefix(), longest);
+        }
+
         /// Ids that all end inside their key (at most 7 bytes past the shared prefix, as integer
         /// ids are) skip the refinement of equal keys, and their fingerprint is read off the
         /// keys. Against the obvious: the order a sorted `Vec`'s, the first repeat the smallest

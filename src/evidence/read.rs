@@ -8,6 +8,7 @@ use std::collections::HashMap;
 use std::path::Path;
 
 use super::columnar::{self, Cell};
+use super::plain::{Fields, PlainCsv};
 use super::{Class, Columns, IdArena, MAX_CLASSES, PredictionSet};
 use crate::diag::{Diagnostic, Place};
 use crate::manifest::Task;
@@ -46,14 +47,14 @@ enum At {
 
 /// One row as the checks see it.
 enum Row<'a> {
-    Csv(&'a csv::ByteRecord),
+    Csv(&'a Fields<'a>),
     Cells(&'a [Cell<'a>]),
 }
 
 impl Row<'_> {
     fn cell(&self, col: usize) -> Cell<'_> {
         match self {
-            Row::Csv(record) => Cell::Text(record.get(col).unwrap_or_default()),
+            Row::Csv(fields) => Cell::Text(fields.get(col).unwrap_or_default()),
             Row::Cells(cells) => cells.get(col).copied().unwrap_or(Cell::Null),
         }
     }
@@ -205,10 +206,13 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
         let head = std::io::BufRead::fill_buf(&mut buffered).unwrap_or_default();
         let size = std::fs::metadata(path).map_or(0, |m| m.len());
         rows_hint = super::estimated_rows(size, head);
-        (!columnar::looks_like_parquet(head)).then(|| {
-            csv::ReaderBuilder::new()
-                .has_headers(true)
-                .from_reader(buffered)
+        (!columnar::looks_like_parquet(head)).then(|| match PlainCsv::open(buffered) {
+            Ok(plain) => Text::Plain(plain),
+            Err(buffered) => Text::Csv(
+                csv::ReaderBuilder::new()
+                    .has_headers(true)
+                    .from_reader(buffered),
+            ),
         })
     };
     let table = match source {
@@ -234,7 +238,8 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
                 .map(|c| c.name.as_str())
                 .collect::<Vec<_>>(),
         ),
-        (Some(csv), None) => csv_header(csv, &file)?,
+        (Some(Text::Plain(plain)), None) => plain.header().clone(),
+        (Some(Text::Csv(csv)), None) => csv_header(csv, &file)?,
         (None, None) => return Err(refused("no reader for it".to_owned())),
     };
     let columnar_file = table.is_some();
@@ -304,8 +309,9 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
         ]);
     }
     let id_col = column("id").unwrap_or(0);
-    let mut rows = match (source, table) {
-        (Some(csv), None) => Rows::Csv(csv),
+    let rows = match (source, table) {
+        (Some(Text::Plain(plain)), None) => Rows::Plain(plain),
+        (Some(Text::Csv(csv)), None) => Rows::Csv(csv),
         (_, Some(table)) => {
             let wanted = check_types(&file, &table, expect.task)?;
             Rows::Columnar(table, wanted)
@@ -322,7 +328,7 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
         );
         let mut target = super::with_room(reserved(true));
         let mut prediction = super::with_room(reserved(true));
-        read_rows(&mut rows, &mut problems, |record, line, p| {
+        read_rows(rows, &mut problems, |record, line, p| {
             let (Some(t), Some(y)) = (
                 number(record, tc, line, "target", p),
                 number(record, pc, line, "prediction", p),
@@ -348,7 +354,7 @@ pub fn read_predictions(path: &Path, expect: Expect) -> Result<PredictionSet, Ve
         let mut predicted: Vec<Class> = super::with_room(reserved(pred_col.is_some()));
         let mut score: Vec<f64> = super::with_room(reserved(score_col.is_some()));
         let mut prob_class: Vec<f64> = super::with_room(reserved(!prob_cols.is_empty()));
-        read_rows(&mut rows, &mut problems, |record, line, p| {
+        read_rows(rows, &mut problems, |record, line, p| {
             let Some(a) = class(&mut classes, record, label_col, line, "label", p) else {
                 return false;
             };
@@ -490,8 +496,16 @@ pub(crate) fn positive_class(classes: &[String], named: Option<&str>) -> Option<
         .map(|i| i as u32)
 }
 
+/// A CSV source after its header: read as plain lines, or by the csv crate from the start (the
+/// header is not a plain line).
+enum Text<R> {
+    Plain(PlainCsv<R>),
+    Csv(csv::Reader<R>),
+}
+
 /// Where the rows come from.
 enum Rows<R> {
+    Plain(PlainCsv<R>),
     Csv(csv::Reader<R>),
     /// A columnar file and the columns the checks read.
     Columnar(columnar::Table, Vec<usize>),
@@ -578,15 +592,33 @@ pub(crate) fn column_type_problem(
     )
 }
 
-fn read_rows<R: std::io::Read>(
-    rows: &mut Rows<R>,
+fn read_rows<R: std::io::BufRead>(
+    rows: Rows<R>,
     problems: &mut Problems,
     mut row: impl FnMut(&Row<'_>, At, &mut Problems) -> bool,
 ) {
-    let csv = match rows {
+    let cannot_read = |problems: &mut Problems, line, reason| {
+        problems.list.push(Diagnostic::at(
+            &problems.file,
+            Place { line, column: None },
+            "(row)",
+            format!("cannot read the row: {reason}"),
+        ));
+    };
+    let mut csv = match rows {
         Rows::Csv(csv) => csv,
+        Rows::Plain(plain) => {
+            let read = plain.visit(|fields, line| {
+                row(&Row::Csv(fields), At::Line(line), problems);
+                !problems.full()
+            });
+            if let Err((line, reason)) = read {
+                cannot_read(problems, line, reason);
+            }
+            return;
+        }
         Rows::Columnar(table, wanted) => {
-            let result = table.visit(wanted, |number, cells| {
+            let result = table.visit(&wanted, |number, cells| {
                 if problems.full() {
                     return false;
                 }
@@ -612,16 +644,11 @@ fn read_rows<R: std::io::Read>(
             Ok(false) => return,
             Ok(true) => {
                 let line = record.position().map_or(0, |p| p.line());
-                row(&Row::Csv(&record), At::Line(line), problems);
+                row(&Row::Csv(&Fields::Csv(&record)), At::Line(line), problems);
             }
             Err(e) => {
                 let (line, reason) = crate::opener::csv_failure(&e);
-                problems.list.push(Diagnostic::at(
-                    &problems.file,
-                    Place { line, column: None },
-                    "(row)",
-                    format!("cannot read the row: {reason}"),
-                ));
+                cannot_read(problems, line, reason);
                 return;
             }
         }

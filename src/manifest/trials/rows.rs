@@ -1008,15 +1008,7 @@ mod tests {
             any::<bool>(),
         )
             .prop_map(|(header, rows, last_break)| {
-                let mut text = format!("{header}\n");
-                for (row, ending) in rows {
-                    text.push_str(&row);
-                    text.push_str(ending);
-                }
-                if !last_break {
-                    text.truncate(text.trim_end_matches(['\r', '\n']).len());
-                }
-                text.into_bytes()
+                crate::opener::csv_text(header, rows, last_break)
             })
     }
 
