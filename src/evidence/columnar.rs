@@ -54,6 +54,7 @@ impl<'a> Cell<'a> {
     /// The cell as text, for ids, classes and messages: text trimmed of ASCII spaces, numbers as
     /// Rust writes them (shortest round trip), booleans as `true`/`false`, a null empty. `scratch`
     /// holds a number's digits (reused, it saves an allocation per cell).
+    #[inline]
     pub fn text<'b>(self, scratch: &'b mut String) -> &'b [u8]
     where
         'a: 'b,

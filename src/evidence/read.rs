@@ -52,6 +52,7 @@ enum Row<'a> {
 }
 
 impl Row<'_> {
+    #[inline]
     fn cell(&self, col: usize) -> Cell<'_> {
         match self {
             Row::Csv(fields) => Cell::Text(fields.get(col).unwrap_or_default()),
@@ -61,6 +62,7 @@ impl Row<'_> {
 
     /// The cell as text, for ids and classes ([`Cell::text`]; `digits` holds an integer's
     /// digits). A float, which the column check refuses here, is empty.
+    #[inline]
     fn text<'b>(&'b self, col: usize, digits: &'b mut String) -> &'b [u8] {
         match self.cell(col) {
             Cell::Float(_) => b"",
@@ -119,6 +121,7 @@ pub(super) struct Classes {
 struct Word(Option<(u64, usize)>);
 
 impl Word {
+    #[inline]
     fn of(name: &[u8]) -> Word {
         Word((name.len() <= 8).then(|| {
             let bytes = name.iter().fold(0u64, |word, &b| word << 8 | u64::from(b));
@@ -149,6 +152,7 @@ impl Classes {
         i
     }
 
+    #[inline]
     pub(super) fn get(&mut self, label: &[u8]) -> Option<u32> {
         // A few classes are found faster by scanning than by hashing every cell.
         if self.names.len() <= 16 {
