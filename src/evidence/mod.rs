@@ -179,8 +179,8 @@ impl IdArena {
         if self.nul {
             // Zero bytes make the padding ambiguous: full bytes break ties.
             entries.sort_unstable_by(|a, b| {
-                a.key
-                    .cmp(&b.key)
+                a.key()
+                    .cmp(&b.key())
                     .then_with(|| self.tie(self, a.key(), (a.row, b.row), prefix))
             });
         } else {
@@ -234,20 +234,20 @@ impl IdArena {
         let mut i = 0;
         while i < entries.len() {
             let j = run_end(entries, i);
-            if j - i > 1 && entries[i].key[1] & 0xff != 0 {
+            if j - i > 1 && entries[i].key() & 0xff != 0 {
                 // Every id of the run goes on past its key. Deeper keys are built in a copy, so
                 // the run's own keys stay those at `prefix`.
                 let mut run = entries[i..j].to_vec();
                 let mut pending = vec![(0, run.len(), prefix + 8)];
                 while let Some((start, end, offset)) = pending.pop() {
                     for e in &mut run[start..end] {
-                        e.key = Entry::new(key(&self.get(e.row as usize)[offset..]), e.row).key;
+                        e.key = key(&self.get(e.row as usize)[offset..]);
                     }
                     run[start..end].sort_unstable_by_key(|e| e.key());
                     let mut a = start;
                     while a < end {
                         let b = start + run_end(&run[start..end], a - start);
-                        if b - a > 1 && run[a].key[1] & 0xff != 0 {
+                        if b - a > 1 && run[a].key() & 0xff != 0 {
                             pending.push((a, b, offset + 8));
                         }
                         a = b;
@@ -341,11 +341,11 @@ impl IdArena {
 
 /// The end of the run of entries with the key of `entries[start]`.
 fn run_end(entries: &[Entry], start: usize) -> usize {
-    let k = entries[start].key;
+    let k = entries[start].key();
     start
         + entries[start..]
             .iter()
-            .position(|e| e.key != k)
+            .position(|e| e.key() != k)
             .unwrap_or(entries.len() - start)
 }
 
@@ -357,25 +357,26 @@ fn key(suffix: &[u8]) -> u64 {
     u64::from_be_bytes(bytes)
 }
 
-/// An id's sort key and its row, as three `u32` (12 bytes, where a `(u64, u32)` pair takes 16):
-/// ten million ids need 120 MB of them.
+/// An id's sort key and its row in 12 bytes, where a `(u64, u32)` pair takes 16 (ten million
+/// ids need 120 MB of them): packed to 4-byte alignment, the key read whole (an unaligned load
+/// costs nothing on the targets that matter), which sorts faster than a key in two halves.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[repr(C, packed(4))]
 struct Entry {
-    /// The key's high and low halves: ordering them is ordering the key.
-    key: [u32; 2],
+    key: u64,
     row: u32,
 }
 
+// 12 bytes an id, as the comment above says.
+const _: () = assert!(std::mem::size_of::<Entry>() == 12);
+
 impl Entry {
     fn new(key: u64, row: u32) -> Entry {
-        Entry {
-            key: [(key >> 32) as u32, key as u32],
-            row,
-        }
+        Entry { key, row }
     }
 
     fn key(self) -> u64 {
-        (u64::from(self.key[0]) << 32) | u64::from(self.key[1])
+        self.key
     }
 }
 
@@ -398,7 +399,7 @@ impl IdOrder {
         self.entries
             .windows(2)
             .find(|w| {
-                w[0].key == w[1].key
+                w[0].key() == w[1].key()
                     && ids.tie(ids, w[0].key(), (w[0].row, w[1].row), self.prefix)
                         == Ordering::Equal
             })
