@@ -233,8 +233,16 @@ impl IdArena {
     fn refine(&self, entries: &mut [Entry], prefix: usize) {
         let mut i = 0;
         while i < entries.len() {
+            // Most keys differ from the next: stepped over without looking for a run's end.
+            if entries
+                .get(i + 1)
+                .is_none_or(|next| next.key() != entries[i].key())
+            {
+                i += 1;
+                continue;
+            }
             let j = run_end(entries, i);
-            if j - i > 1 && entries[i].key() & 0xff != 0 {
+            if entries[i].key() & 0xff != 0 {
                 // Every id of the run goes on past its key. Deeper keys are built in a copy, so
                 // the run's own keys stay those at `prefix`.
                 let mut run = entries[i..j].to_vec();
