@@ -309,27 +309,7 @@ impl IdArena {
     pub fn fingerprint(&self, order: &IdOrder) -> String {
         let mut hasher = Sha256::new();
         if order.whole {
-            const BATCH: usize = 1 << 16;
-            let prefix = order
-                .entries
-                .first()
-                .map_or(&[][..], |e| &self.get(e.row as usize)[..order.prefix]);
-            let mut batch = Vec::with_capacity(BATCH + prefix.len() + 9);
-            for (k, e) in order.entries.iter().enumerate() {
-                if k > 0 {
-                    batch.push(b'\n');
-                }
-                batch.extend_from_slice(prefix);
-                let key = e.key();
-                // The id's bytes are the key's up to its zero padding (a zero key: none).
-                let len = 8 - (key.trailing_zeros() / 8) as usize;
-                batch.extend_from_slice(&key.to_be_bytes()[..len]);
-                if batch.len() >= BATCH {
-                    hasher.update(&batch);
-                    batch.clear();
-                }
-            }
-            hasher.update(&batch);
+            hasher = self.hash_from_keys(order);
         } else {
             for (k, i) in order.rows().enumerate() {
                 if k > 0 {
@@ -344,6 +324,55 @@ impl IdArena {
             out.push_str(&format!("{b:02x}"));
         }
         out
+    }
+
+    /// The hash of the ids read off the keys of `order` (every id whole in its key), joined by
+    /// line feeds: gathered 64 KiB at a time here and hashed on a second thread as they come
+    /// (gathering and hashing take about as long as each other), the batches handed back for
+    /// reuse.
+    fn hash_from_keys(&self, order: &IdOrder) -> Sha256 {
+        const BATCH: usize = 1 << 16;
+        let prefix = order
+            .entries
+            .first()
+            .map_or(&[][..], |e| &self.get(e.row as usize)[..order.prefix]);
+        let room = BATCH + prefix.len() + 9;
+        let (full, to_hash) = std::sync::mpsc::sync_channel::<Vec<u8>>(2);
+        let (emptied, spare) = std::sync::mpsc::channel::<Vec<u8>>();
+        let (hasher, ()) = crate::parallel::both(
+            move || {
+                let mut hasher = Sha256::new();
+                for batch in to_hash {
+                    hasher.update(&batch);
+                    // The gatherer may be done; the batch is then dropped here.
+                    let _ = emptied.send(batch);
+                }
+                hasher
+            },
+            move || {
+                let mut batch = Vec::with_capacity(room);
+                for (k, e) in order.entries.iter().enumerate() {
+                    if k > 0 {
+                        batch.push(b'\n');
+                    }
+                    batch.extend_from_slice(prefix);
+                    let key = e.key();
+                    // The id's bytes are the key's up to its zero padding (a zero key: none).
+                    let len = 8 - (key.trailing_zeros() / 8) as usize;
+                    batch.extend_from_slice(&key.to_be_bytes()[..len]);
+                    if batch.len() >= BATCH {
+                        let mut next = spare
+                            .try_recv()
+                            .unwrap_or_else(|_| Vec::with_capacity(room));
+                        next.clear();
+                        // The hasher ends only when this sender is dropped.
+                        let _ = full.send(std::mem::replace(&mut batch, next));
+                    }
+                }
+                let _ = full.send(batch);
+            },
+        );
+        hasher
     }
 }
 
@@ -977,6 +1006,27 @@ mod tests {
                 }
             }
         }
+    }
+
+    /// Ids read off their keys over many 64 KiB batches (hashed on a second thread, the
+    /// batches reused) hash as the sorted ids joined by line feeds hashed in one piece.
+    #[test]
+    fn a_fingerprint_over_many_batches_is_the_hash_of_the_joined_ids() {
+        let ids: Vec<String> = (0..60_000u32)
+            .map(|i| format!("row-{}", i.wrapping_mul(2_654_435_761) % 9_999_991))
+            .collect();
+        let a = arena(&ids);
+        let order = a.sorted();
+        assert!(order.whole, "every id whole in its key");
+        let mut sorted = ids.clone();
+        sorted.sort();
+        let joined = sorted.join("\n");
+        assert!(joined.len() > 5 << 16, "several batches");
+        let hex: String = Sha256::digest(joined.as_bytes())
+            .iter()
+            .map(|b| format!("{b:02x}"))
+            .collect();
+        assert_eq!(a.fingerprint(&order), format!("sha256:{hex}"));
     }
 
     fn arena(ids: &[String]) -> IdArena {
