@@ -97,8 +97,8 @@ fn read_all(path: &Path, named_by: &str, which: &str) -> Result<IdArena, Diagnos
             number += count;
             start = whole;
         }
-        let rest = start;
-        for end in memchr::memchr_iter(b'\n', &buffer[..whole]).skip_while(|&end| end < rest) {
+        let from = start;
+        for end in memchr::memchr_iter(b'\n', &buffer[from..whole]).map(|end| from + end) {
             number += 1;
             add_line(&mut ids, &buffer[start..=end], number, path, which)?;
             start = end + 1;

@@ -48,6 +48,11 @@ pub(crate) type Failure = (Option<u64>, String);
 pub(crate) struct PlainCsv<R> {
     source: R,
     header: csv::ByteRecord,
+    counts: Counts,
+}
+
+/// Where reading is, in the csv crate's terms and the scan's.
+struct Counts {
     /// The line and byte just after the last record (the header first), as the csv crate
     /// gives a record's position.
     pos_line: u64,
@@ -97,11 +102,13 @@ impl<R: BufRead> PlainCsv<R> {
         Ok(PlainCsv {
             source,
             header,
-            pos_line: 2,
-            pos_byte: end as u64 + 1,
-            records: 1,
-            line: 2,
-            byte: end as u64 + 1,
+            counts: Counts {
+                pos_line: 2,
+                pos_byte: end as u64 + 1,
+                records: 1,
+                line: 2,
+                byte: end as u64 + 1,
+            },
         })
     }
 
@@ -138,8 +145,9 @@ impl<R: BufRead> PlainCsv<R> {
                     return self.rest_by_csv(cut_off, &mut each);
                 }
                 cut_off.push(b'\n');
-                let scan = self.scan(&cut_off, width, &mut ends, &mut each);
-                return self.finish_scan(scan, width).map(|_| ());
+                let scan =
+                    Self::scan_lines(&cut_off, &mut self.counts, width, &mut ends, &mut each);
+                return self.finish_scan(scan).map(|_| ());
             }
             if !cut_off.is_empty() {
                 let Some(first) = memchr::memchr(b'\n', buffer) else {
@@ -153,8 +161,9 @@ impl<R: BufRead> PlainCsv<R> {
                 if memchr::memchr2(b'"', b'\r', &cut_off).is_some() {
                     return self.rest_by_csv(cut_off, &mut each);
                 }
-                let scan = self.scan(&cut_off, width, &mut ends, &mut each);
-                if !self.finish_scan(scan, width)? {
+                let scan =
+                    Self::scan_lines(&cut_off, &mut self.counts, width, &mut ends, &mut each);
+                if !self.finish_scan(scan)? {
                     return Ok(());
                 }
                 cut_off.clear();
@@ -170,14 +179,13 @@ impl<R: BufRead> PlainCsv<R> {
             if plain > 0 {
                 let scan = Self::scan_lines(
                     &buffer[..plain],
-                    (&mut self.line, &mut self.byte),
-                    (&mut self.pos_line, &mut self.pos_byte, &mut self.records),
+                    &mut self.counts,
                     width,
                     &mut ends,
                     &mut each,
                 );
                 self.source.consume(plain);
-                if !self.finish_scan(scan, width)? {
+                if !self.finish_scan(scan)? {
                     return Ok(());
                 }
                 // The buffer's rest comes next: a line that is not plain, or a cut-off line.
@@ -193,35 +201,22 @@ impl<R: BufRead> PlainCsv<R> {
         }
     }
 
-    /// [`PlainCsv::scan_lines`] over `lines` with this reader's counts.
-    fn scan(
-        &mut self,
-        lines: &[u8],
-        width: usize,
-        ends: &mut Vec<usize>,
-        each: &mut impl FnMut(&Fields<'_>, u64) -> bool,
-    ) -> Scan {
-        Self::scan_lines(
-            lines,
-            (&mut self.line, &mut self.byte),
-            (&mut self.pos_line, &mut self.pos_byte, &mut self.records),
-            width,
-            ends,
-            each,
-        )
-    }
-
     /// Reads whole plain lines (each ended by a line feed), the commas and line feeds found a
-    /// word at a time; `(line, byte)` where the scan is and `(pos_line, pos_byte, records)` the
-    /// csv crate's position, both advanced over the lines read.
+    /// word at a time; `counts` advanced over the lines read.
     fn scan_lines(
         lines: &[u8],
-        (line, byte): (&mut u64, &mut u64),
-        (pos_line, pos_byte, records): (&mut u64, &mut u64, &mut u64),
+        counts: &mut Counts,
         width: usize,
         ends: &mut Vec<usize>,
         each: &mut impl FnMut(&Fields<'_>, u64) -> bool,
     ) -> Scan {
+        let Counts {
+            pos_line,
+            pos_byte,
+            records,
+            line,
+            byte,
+        } = counts;
         let base = *byte;
         let mut start = 0;
         ends.clear();
@@ -280,13 +275,16 @@ impl<R: BufRead> PlainCsv<R> {
     }
 
     /// Whether to go on after a scan; a ragged record as the csv crate refuses it.
-    fn finish_scan(&self, scan: Scan, width: usize) -> Result<bool, Failure> {
+    fn finish_scan(&self, scan: Scan) -> Result<bool, Failure> {
+        let Counts {
+            records, pos_byte, ..
+        } = self.counts;
         match scan {
             Scan::Done => Ok(true),
             Scan::Stop => Ok(false),
             Scan::Ragged(line, fields) => Err((
                 Some(line),
-                unequal_lengths(self.records, line, self.pos_byte, fields, width),
+                unequal_lengths(records, line, pos_byte, fields, self.header.len()),
             )),
         }
     }
@@ -301,7 +299,7 @@ impl<R: BufRead> PlainCsv<R> {
         let width = self.header.len();
         // The rest starts at the scan's line and byte; its first record's position is the
         // last record's end (blank lines before it are skipped, as the crate skips them).
-        let (line, byte) = (self.line, self.byte);
+        let Counts { line, byte, .. } = self.counts;
         let mut csv = csv::ReaderBuilder::new()
             .has_headers(false)
             .flexible(true)
@@ -309,14 +307,14 @@ impl<R: BufRead> PlainCsv<R> {
             .from_reader(std::io::Cursor::new(first).chain(self.source));
         let mut record = csv::ByteRecord::new();
         let mut first_record = true;
-        let mut records = self.records;
+        let mut records = self.counts.records;
         loop {
             match csv.read_byte_record(&mut record) {
                 Ok(false) => return Ok(()),
                 Ok(true) => {
                     let (at_line, at_byte) = match (first_record, record.position()) {
                         (false, Some(p)) => (line + p.line() - 1, byte + p.byte()),
-                        _ => (self.pos_line, self.pos_byte),
+                        _ => (self.counts.pos_line, self.counts.pos_byte),
                     };
                     first_record = false;
                     if record.len() != width {
